@@ -1,0 +1,133 @@
+// benchid frf RECORD --input CH --output CH [--reference CH] [options] [-o FRF.csv]
+#include <charconv>
+#include <cmath>
+#include <iostream>
+#include <limits>
+#include <sstream>
+#include <unistd.h>
+
+#include "cli/commands.h"
+#include "cli/output.h"
+#include "ident/error.h"
+#include "ident/frf.h"
+#include "ident/frf_csv.h"
+#include "ident/record.h"
+
+namespace benchid::cli {
+
+namespace {
+
+struct FrfArgs {
+  std::string record, input, output, reference, out;
+  double rate_hz = 0;
+  std::size_t segment = 0;
+  double resolution_hz = 0;
+  double overlap = ident::WelchOptions{}.overlap;
+  std::string window = "hann", detrend = "mean", estimator = "h1", band;
+  std::size_t periods = 0, period = 0;
+  std::vector<std::string> scales;
+  double confidence = ident::FrfOptions{}.confidence;
+  double jitter = ident::ReadOptions{}.jitter_tolerance;
+  bool loop_gain = false, quiet = false;
+};
+
+double parse_double(const std::string& s, const std::string& what) {
+  double v = 0;
+  auto r = std::from_chars(s.data(), s.data() + s.size(), v);
+  if (r.ec != std::errc() || r.ptr != s.data() + s.size() || !std::isfinite(v))
+    throw InputError(what + " '" + s + "' is not a number");
+  return v;
+}
+
+void run_frf(const FrfArgs& a) {
+  refuse_overwriting_input(a.out, {a.record});
+  ident::ReadOptions ro;
+  ro.rate_hz = a.rate_hz;
+  ro.jitter_tolerance = a.jitter;
+  if (!(a.jitter > 0 && a.jitter < 0.5))
+    throw InputError("--jitter-tolerance " + std::to_string(a.jitter) + ": expected a fraction in (0, 0.5)");
+  auto reader = ident::open_record(a.record, ro);
+  for (const auto& s : a.scales) {
+    const auto c = s.rfind(':');
+    if (c == std::string::npos || c == 0)
+      throw InputError("--scale '" + s + "': expected CH:FACTOR, e.g. 2:10.5");
+    reader->set_scale(reader->channel_index(s.substr(0, c)), parse_double(s.substr(c + 1), "--scale factor"));
+  }
+  ident::FrfOptions o;
+  if (a.segment) o.welch.segment = a.segment;
+  o.resolution_hz = a.resolution_hz;
+  if (a.segment && a.resolution_hz > 0) throw InputError("give --segment or --resolution, not both");
+  o.welch.overlap = a.overlap;
+  o.welch.window = ident::parse_window(a.window);
+  o.welch.detrend = ident::parse_detrend(a.detrend);
+  o.estimator = ident::parse_estimator(a.estimator);
+  o.periods = a.periods;
+  o.period = a.period;
+  o.confidence = a.confidence;
+  o.loop_gain = a.loop_gain;
+  if (!a.band.empty()) {
+    const auto c = a.band.find(':');
+    if (c == std::string::npos) throw InputError("--band '" + a.band + "': expected LO:HI in Hz, e.g. 1:500");
+    o.band_lo_hz = c == 0 ? 0 : parse_double(a.band.substr(0, c), "--band LO");
+    o.band_hi_hz = c + 1 == a.band.size() ? 0 : parse_double(a.band.substr(c + 1), "--band HI");
+  }
+  const ident::Frf f = ident::estimate_frf(*reader, {a.input, a.output, a.reference}, o);
+  std::ostringstream csv;
+  ident::write_frf_csv(csv, f);
+  write_file_atomically(a.out.empty() ? "-" : a.out, csv.str());
+  if (!a.quiet) {
+    std::cerr << "benchid frf: " << ident::summary(f) << "\n";
+    for (const auto& w : f.warnings) std::cerr << "benchid: warning: " << w << "\n";
+    if (!a.out.empty() && a.out != "-") std::cerr << "  wrote " << a.out << "\n";
+  }
+}
+
+}  // namespace
+
+void add_frf_command(CLI::App& app) {
+  auto a = std::make_shared<FrfArgs>();
+  CLI::App* c = app.add_subcommand(
+      "frf",
+      "Estimate a frequency response (FRF) with coherence and error bars from a recording of an\n"
+      "excitation (input) and a response (output). Writes the FRF CSV (DESIGN.md) to -o or stdout\n"
+      "and a summary to stderr.");
+  c->add_option("record", a->record, "Recording: CSV/TSV log (header row of channel names, optional time "
+                "column) or a sound file (WAV, FLAC, AIFF, ... through libsndfile)")->required();
+  c->add_option("--input", a->input, "Input (excitation) channel: header name or 1-based column/channel "
+                "number (numbers count every column, the time column included)")->required();
+  c->add_option("--output", a->output, "Output (response) channel: name or 1-based number")->required();
+  c->add_option("--reference", a->reference,
+                "Reference channel (e.g. the injected or setpoint signal) for closed-loop data: the plant "
+                "is estimated by the indirect method G_ry/G_ru, unbiased by feedback of output noise");
+  c->add_option("-o,--out", a->out, "FRF CSV to write (default: stdout); never an input path");
+  c->add_option("--rate", a->rate_hz, "Sampling rate in Hz; needed when the log has no time column. When "
+                "given, a time column is ignored (default: from the time column or the sound file)");
+  c->add_option("--segment", a->segment, "Samples per Welch segment (default 4096; a power of two is fastest). "
+                "Resolution = rate/segment Hz");
+  c->add_option("--resolution", a->resolution_hz, "Target frequency resolution in Hz instead of --segment: the "
+                "segment becomes the smallest power of two with rate/segment <= HZ");
+  c->add_option("--overlap", a->overlap, "Segment overlap as a fraction in [0, 0.95] (default 0.5)");
+  c->add_option("--window", a->window, "Window: rect, hann, hamming, blackmanharris (4-term), flattop "
+                "(default hann)");
+  c->add_option("--detrend", a->detrend, "Removed from each segment: none, mean, linear (default mean)");
+  c->add_option("--estimator", a->estimator, "h1 (output noise; default), h2 (input noise) or hv (geometric "
+                "mean of h1 and h2); a --reference selects the indirect estimate");
+  c->add_option("--periods", a->periods, "Periodic excitation: the record holds N whole periods; they are "
+                "averaged synchronously with a rectangular window (leakage-free for multisines) and the "
+                "error comes from the period-to-period variation");
+  c->add_option("--period", a->period, "Periodic excitation: samples per period (instead of --periods)");
+  c->add_option("--band", a->band, "Frequency band LO:HI in Hz to keep (either side may be empty; default: "
+                "every line above 0 Hz up to Nyquist)");
+  c->add_option("--scale", a->scales, "CH:FACTOR multiplies a channel (for sound files: units per full scale, "
+                "e.g. 2:12.5 for a 12.5 A/FS current probe); repeatable")->take_all();
+  c->add_option("--confidence", a->confidence, "Confidence level of the zero-coherence bound below which lines "
+                "are flagged unreliable (default 0.95)");
+  c->add_option("--jitter-tolerance", a->jitter, "Allowed deviation of one time step from the nominal step, as a "
+                "fraction, besides the printed resolution of the time values (default 0.01)");
+  c->add_flag("--loop-gain", a->loop_gain, "Injection measurement: --reference is the injected signal, --input the "
+              "signal after the injection point, --output the signal returning to it; reports L = -G_ry/G_ru");
+  c->add_flag("-q,--quiet", a->quiet, "No summary on stderr");
+  c->callback([a] { run_frf(*a); });
+}
+
+}  // namespace benchid::cli

@@ -1,0 +1,404 @@
+#include "ident/frf.h"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <numbers>
+#include <sstream>
+
+#include "ident/error.h"
+
+namespace benchid::ident {
+
+namespace {
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+std::string num(double v, int prec = 4) {
+  std::ostringstream s;
+  s.precision(prec);
+  s << v;
+  return s.str();
+}
+}  // namespace
+
+Estimator parse_estimator(const std::string& name) {
+  if (name == "h1") return Estimator::h1;
+  if (name == "h2") return Estimator::h2;
+  if (name == "hv") return Estimator::hv;
+  throw InputError("estimator '" + name + "' is unknown; expected h1, h2 or hv " +
+                   "(indirect is chosen by --reference, periodic by --periods or --period)");
+}
+
+const char* estimator_name(Estimator e) {
+  switch (e) {
+    case Estimator::h1: return "h1";
+    case Estimator::h2: return "h2";
+    case Estimator::hv: return "hv";
+    case Estimator::indirect: return "indirect";
+    case Estimator::periodic: return "periodic";
+  }
+  return "?";
+}
+
+void validate(const FrfOptions& o) {
+  validate(o.welch);
+  if (!(o.resolution_hz >= 0) || !std::isfinite(o.resolution_hz))
+    throw InputError("resolution = " + num(o.resolution_hz) + " Hz: must be a positive frequency");
+  if (!(o.band_lo_hz >= 0) || !(o.band_hi_hz >= 0) || !std::isfinite(o.band_lo_hz) || !std::isfinite(o.band_hi_hz))
+    throw InputError("band = " + num(o.band_lo_hz) + ":" + num(o.band_hi_hz) + " Hz: must be non-negative");
+  if (o.band_hi_hz > 0 && o.band_hi_hz <= o.band_lo_hz)
+    throw InputError("band = " + num(o.band_lo_hz) + ":" + num(o.band_hi_hz) + " Hz: LO must be below HI");
+  if (!(o.confidence >= 0.5 && o.confidence <= 0.9999))
+    throw InputError("confidence = " + num(o.confidence) + ": must be in [0.5, 0.9999]");
+  if (o.period == 1) throw InputError("period = 1: must be at least 2 samples");
+  if (o.block_frames < 1) throw InputError("block_frames = 0: must be at least 1");
+}
+
+double frf_magnitude_error(double gamma2, double n_d) {
+  if (!(gamma2 > 0) || !(n_d > 0)) return kNaN;
+  if (gamma2 >= 1) return 0.0;
+  return std::sqrt(1.0 - gamma2) / (std::sqrt(gamma2) * std::sqrt(2.0 * n_d));
+}
+
+double zero_coherence_bound(double n_d, double confidence) {
+  if (!(n_d > 1)) return 1.0;
+  return 1.0 - std::pow(1.0 - confidence, 1.0 / (n_d - 1.0));
+}
+
+std::vector<double> Frf::mag_db() const {
+  std::vector<double> m(h.size());
+  for (std::size_t i = 0; i < h.size(); ++i) m[i] = 20.0 * std::log10(std::abs(h[i]));
+  return m;
+}
+
+std::vector<double> Frf::phase_deg() const {
+  std::vector<double> p(h.size());
+  double offset = 0, prev = 0;
+  for (std::size_t i = 0; i < h.size(); ++i) {
+    const double a = std::arg(h[i]) * 180.0 / std::numbers::pi;
+    if (i > 0) {
+      double d = a + offset - prev;
+      while (d > 180.0) offset -= 360.0, d -= 360.0;
+      while (d <= -180.0) offset += 360.0, d += 360.0;
+    }
+    p[i] = a + offset;
+    prev = p[i];
+  }
+  return p;
+}
+
+namespace {
+
+bool in_band(double f, const FrfOptions& o) {
+  return f > 0 && f >= o.band_lo_hz && (o.band_hi_hz <= 0 || f <= o.band_hi_hz);
+}
+
+// Warns where a resonance is narrower than a few lines: its peak is flattened
+// and its damping reads high when the half-power width 2*zeta*f_n is not much
+// wider than the resolution (Bendat & Piersol, bias error of resonant peaks).
+void check_resolution_bias(Frf& f) {
+  const std::size_t n = f.size();
+  if (n < 5) return;
+  std::vector<double> m(n);
+  for (std::size_t i = 0; i < n; ++i) m[i] = std::abs(f.h[i]);
+  const double df = f.freq_hz[1] - f.freq_hz[0];
+  int warned = 0;
+  for (std::size_t k = 1; k + 1 < n && warned < 3; ++k) {
+    if (!(m[k] > m[k - 1] && m[k] >= m[k + 1])) continue;
+    // only where the line-to-line wiggle of noise cannot fake a 3 dB drop:
+    // a 5 % magnitude error makes a 29 % (3 dB) drop a > 5 sigma event
+    constexpr double kMaxRelErr = 0.05;
+    auto trusted = [&](std::size_t i) { return f.reliable[i] && f.rel_err[i] <= kMaxRelErr; };
+    if (!trusted(k)) continue;
+    const double half = m[k] / std::numbers::sqrt2;
+    // walk down each side to the half-power level; a higher line first means no isolated peak
+    auto edge = [&](int dir) -> double {
+      std::size_t i = k;
+      for (;;) {
+        if ((dir < 0 && i == 0) || (dir > 0 && i + 1 >= n)) return kNaN;
+        const std::size_t j = dir < 0 ? i - 1 : i + 1;
+        if (m[j] > m[k] || !trusted(j)) return kNaN;
+        if (m[j] <= half) {
+          const double t = (m[i] - half) / (m[i] - m[j]);
+          return f.freq_hz[i] + t * (f.freq_hz[j] - f.freq_hz[i]);
+        }
+        i = j;
+      }
+    };
+    const double lo = edge(-1), hi = edge(+1);
+    if (std::isnan(lo) || std::isnan(hi)) continue;
+    const double width = hi - lo;
+    if (width < 4.0 * df) {
+      f.warnings.push_back("resonance near " + num(f.freq_hz[k]) + " Hz is " + num(width / df, 2) +
+                           " lines wide at half power: its peak is flattened and its damping "
+                           "reads high; a resolution of " + num(width / 5.0, 2) +
+                           " Hz or finer (a longer segment) would resolve it");
+      ++warned;
+    }
+  }
+}
+
+void finish_common(Frf& f) {
+  f.coherence_bound = zero_coherence_bound(f.effective_averages, f.confidence);
+  f.reliable.resize(f.size());
+  for (std::size_t i = 0; i < f.size(); ++i)
+    f.reliable[i] = f.effective_averages > 1 && f.coherence[i] > f.coherence_bound;
+  if (f.effective_averages <= 1)
+    f.warnings.push_back("only one average: coherence is 1 by construction and the error is "
+                         "unknown; use a shorter segment or more periods");
+  check_resolution_bias(f);
+}
+
+}  // namespace
+
+Frf frf_from_spectra(const CrossSpectra& cs, std::size_t u, std::size_t y, int r, const FrfOptions& o) {
+  Frf f;
+  f.rate_hz = cs.rate_hz;
+  f.estimator = r >= 0 ? Estimator::indirect : o.estimator;
+  f.window = o.welch.window;
+  f.detrend = o.welch.detrend;
+  f.segment = cs.segment;
+  f.overlap = static_cast<double>(cs.segment - cs.hop) / static_cast<double>(cs.segment);
+  f.averages = cs.segments;
+  f.effective_averages = cs.effective_averages;
+  f.confidence = o.confidence;
+  f.loop_gain = o.loop_gain;
+  const double nd = cs.effective_averages;
+  for (std::size_t k = 1; k < cs.bins(); ++k) {
+    const double fr = cs.freq_hz(k);
+    if (!in_band(fr, o)) continue;
+    const double guu = cs.g(u, u, k).real(), gyy = cs.g(y, y, k).real();
+    const std::complex<double> guy = cs.g(u, y, k);
+    const double g2 = std::norm(guy) / (guu * gyy);
+    std::complex<double> h;
+    double coh = g2;
+    switch (f.estimator) {
+      case Estimator::h1: h = guy / guu; break;
+      case Estimator::h2: h = gyy / std::conj(guy); break;
+      case Estimator::hv: {
+        const std::complex<double> h1 = guy / guu;
+        h = h1 / std::sqrt(g2);  // |Hv| = sqrt(|H1||H2|) = |H1|/|gamma|, same phase
+        break;
+      }
+      case Estimator::indirect: {
+        const auto ri = static_cast<std::size_t>(r);
+        const std::complex<double> gru = cs.g(ri, u, k), gry = cs.g(ri, y, k);
+        const double grr = cs.g(ri, ri, k).real();
+        h = gry / gru;
+        const double gee = std::max(0.0, gyy - 2.0 * std::real(std::conj(h) * guy) + std::norm(h) * guu);
+        const double explained = std::norm(gru) * std::norm(h);
+        coh = explained / (explained + grr * gee);
+        if (o.loop_gain) h = -h;
+        break;
+      }
+      case Estimator::periodic: break;
+    }
+    if (!std::isfinite(coh)) coh = kNaN;
+    f.freq_hz.push_back(fr);
+    f.h.push_back(h);
+    f.coherence.push_back(coh);
+    f.rel_err.push_back(frf_magnitude_error(coh, nd));
+    f.guu.push_back(guu);
+    f.gyy.push_back(gyy);
+    f.guy.push_back(guy);
+  }
+  finish_common(f);
+  return f;
+}
+
+Frf frf_from_periodic(const PeriodicSpectra& ps, std::size_t u, std::size_t y, const FrfOptions& o) {
+  Frf f;
+  f.rate_hz = ps.rate_hz;
+  f.estimator = Estimator::periodic;
+  f.window = Window::rect;
+  f.detrend = Detrend::none;
+  f.segment = ps.period;
+  f.overlap = 0;
+  f.averages = ps.periods;
+  f.effective_averages = static_cast<double>(ps.periods);
+  f.confidence = o.confidence;
+  const double m = static_cast<double>(ps.periods);
+  const double scale = 2.0 / (ps.rate_hz * static_cast<double>(ps.period));  // rect window density
+  double max_u = 0;
+  for (std::size_t k = 1; k < ps.bins(); ++k) max_u = std::max(max_u, std::norm(ps.mean[u][k]));
+  std::size_t unexcited = 0;
+  for (std::size_t k = 1; k < ps.bins(); ++k) {
+    const double fr = ps.freq_hz(k);
+    if (!in_band(fr, o)) continue;
+    const std::complex<double> U = ps.mean[u][k], Y = ps.mean[y][k];
+    const double suu = ps.cov[ps.pair_index(u, u)][k].real();
+    const double syy = ps.cov[ps.pair_index(y, y)][k].real();
+    const std::complex<double> suy = u <= y ? ps.cov[ps.pair_index(u, y)][k] : std::conj(ps.cov[ps.pair_index(y, u)][k]);
+    // An excited line: the input stands above numerical zero (-80 dB from the
+    // strongest line) and, with several periods, 10 dB above its own noise.
+    const bool excited = std::norm(U) > 1e-8 * max_u && (ps.periods < 2 || std::norm(U) * m > 10.0 * suu);
+    if (!excited) {
+      ++unexcited;
+      continue;
+    }
+    const std::complex<double> h = Y / U;
+    const double puu = ps.power[ps.pair_index(u, u)][k].real();
+    const double pyy = ps.power[ps.pair_index(y, y)][k].real();
+    const std::complex<double> puy = u <= y ? ps.power[ps.pair_index(u, y)][k] : std::conj(ps.power[ps.pair_index(y, u)][k]);
+    double coh = ps.periods > 1 ? std::norm(puy) / (puu * pyy) : 1.0;
+    if (!std::isfinite(coh)) coh = kNaN;
+    double err = kNaN;
+    if (ps.periods > 1) {
+      const double var = (syy / std::norm(Y) + suu / std::norm(U) - 2.0 * std::real(suy / (std::conj(U) * Y))) / m;
+      err = std::sqrt(std::max(0.0, var) / 2.0);
+    }
+    f.freq_hz.push_back(fr);
+    f.h.push_back(h);
+    f.coherence.push_back(coh);
+    f.rel_err.push_back(err);
+    f.guu.push_back(puu * scale);
+    f.gyy.push_back(pyy * scale);
+    f.guy.push_back(puy * scale);
+  }
+  finish_common(f);
+  if (ps.periods > 1)
+    for (std::size_t i = 0; i < f.size(); ++i) f.reliable[i] = f.coherence[i] > f.coherence_bound;
+  if (unexcited > 0)
+    f.warnings.push_back(std::to_string(unexcited) + " lines left out as not excited (input below "
+                         "-80 dB of the strongest line or within 10 dB of its noise)");
+  return f;
+}
+
+Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& o_in) {
+  FrfOptions o = o_in;
+  validate(o);
+  const RecordInfo& info = reader.info();
+  std::vector<std::size_t> sel{reader.channel_index(ch.input), reader.channel_index(ch.output)};
+  const bool have_ref = !ch.reference.empty();
+  if (have_ref) sel.push_back(reader.channel_index(ch.reference));
+  if (sel[0] == sel[1])
+    throw InputError(where(info.path) + "input and output are the same channel '" +
+                     info.channels[sel[0]].name + "'; expected two different channels");
+  if (have_ref && (sel[2] == sel[0] || sel[2] == sel[1]))
+    throw InputError(where(info.path) + "reference channel '" + info.channels[sel[2]].name +
+                     "' is also the input or output; expected a third channel");
+  if (o.loop_gain && !have_ref)
+    throw InputError("loop gain from an injection needs the injected signal as --reference");
+  reader.select(sel);
+  const bool periodic = o.period > 0 || o.periods > 0;
+  if (periodic && have_ref)
+    throw InputError("periodic averaging with a reference channel is not supported; "
+                     "expected either --periods/--period or --reference");
+
+  const double rate0 = reader.rate_hz();
+  std::size_t period = o.period;
+  if (periodic && period == 0) {
+    const std::size_t total = reader.count_frames();
+    period = total / o.periods;
+    if (period < 2)
+      throw InputError(where(info.path) + std::to_string(total) + " samples cannot hold " +
+                       std::to_string(o.periods) + " periods; expected at least 2 samples per period");
+  }
+  if (!periodic && o.resolution_hz > 0) {
+    if (!(rate0 > 0))
+      throw InputError(where(info.path) + "the rate is not known before reading; give --segment instead of --resolution");
+    std::size_t seg = 8;
+    while (rate0 / static_cast<double>(seg) > o.resolution_hz && seg < (std::size_t{1} << 26)) seg *= 2;
+    o.welch.segment = seg;
+  }
+
+  std::vector<std::vector<double>> block;
+  Frf f;
+  std::size_t samples = 0;
+  if (periodic) {
+    PeriodicAccumulator acc(period, 2);
+    while (reader.read_block(o.block_frames, block) > 0) {
+      samples += block[0].size();
+      acc.push(block);
+    }
+    if (acc.periods() == 0)
+      throw InputError(where(info.path) + std::to_string(samples) + " samples, fewer than one period of " +
+                       std::to_string(period) + "; expected a record of whole periods");
+    const double rate = reader.rate_hz();
+    const PeriodicSpectra ps = acc.finish(rate);
+    f = frf_from_periodic(ps, 0, 1, o);
+    if (samples % period != 0)
+      f.warnings.push_back(std::to_string(samples % period) + " trailing samples (less than one period) left out");
+  } else {
+    WelchAccumulator acc(o.welch, sel.size());
+    while (reader.read_block(o.block_frames, block) > 0) {
+      samples += block[0].size();
+      acc.push(block);
+    }
+    if (acc.segments() == 0)
+      throw InputError(where(info.path) + std::to_string(samples) + " samples, fewer than one segment of " +
+                       std::to_string(o.welch.segment) + "; expected a longer record, or a shorter --segment "
+                       "(or coarser --resolution)");
+    const double rate = reader.rate_hz();
+    if (!(rate > 0) || !std::isfinite(rate))
+      throw InputError(where(info.path) + "cannot tell the sampling rate; expected a time column or --rate HZ");
+    const CrossSpectra cs = acc.finish(rate);
+    // A channel with no energy after detrending cannot support an estimate.
+    for (std::size_t c = 0; c < sel.size(); ++c) {
+      double total = 0;
+      for (std::size_t k = 1; k < cs.bins(); ++k) total += cs.g(c, c, k).real();
+      if (!(total > 0))
+        throw InputError(where(info.path) + "channel '" + info.channels[sel[c]].name +
+                         "' has no energy (constant over the record); expected a varying signal");
+    }
+    f = frf_from_spectra(cs, 0, 1, have_ref ? 2 : -1, o);
+  }
+  if (f.size() == 0)
+    throw InputError("band " + num(o.band_lo_hz) + ":" + num(o.band_hi_hz) + " Hz holds no line; expected a band "
+                     "between the resolution and Nyquist (" + num(f.rate_hz / 2) + " Hz)");
+  if (periodic) {
+    double total = 0;
+    for (double g : f.guu) total += g;
+    if (!(total > 0))
+      throw InputError(where(info.path) + "channel '" + info.channels[sel[0]].name +
+                       "' has no energy (constant over the record); expected a varying signal");
+  }
+  f.source = info.path;
+  f.samples = samples;
+  f.input = info.channels[sel[0]].name;
+  f.input_unit = info.channels[sel[0]].unit;
+  f.output = info.channels[sel[1]].name;
+  f.output_unit = info.channels[sel[1]].unit;
+  if (have_ref) f.reference = info.channels[sel[2]].name;
+  for (const auto& w : reader.warnings()) f.warnings.insert(f.warnings.begin(), w);
+  return f;
+}
+
+std::string summary(const Frf& f) {
+  std::ostringstream s;
+  const double dur = static_cast<double>(f.samples) / f.rate_hz;
+  s << f.source << ": " << f.samples << " samples at " << num(f.rate_hz, 6) << " Hz (" << num(dur, 4)
+    << " s); input '" << f.input << "'" << (f.input_unit.empty() ? "" : " [" + f.input_unit + "]")
+    << ", output '" << f.output << "'" << (f.output_unit.empty() ? "" : " [" + f.output_unit + "]");
+  if (!f.reference.empty()) s << ", reference '" << f.reference << "'";
+  s << "\n  estimator " << estimator_name(f.estimator) << (f.loop_gain ? " (loop gain L = -G_ry/G_ru)" : "");
+  if (f.estimator == Estimator::periodic) {
+    s << ", " << f.averages << " periods of " << f.segment << " samples, resolution "
+      << num(f.resolution_hz(), 4) << " Hz";
+  } else {
+    s << ", " << window_name(f.window) << " window, segment " << f.segment << " (resolution "
+      << num(f.resolution_hz(), 4) << " Hz), overlap " << num(f.overlap * 100, 3) << " %, " << f.averages
+      << " averages (" << num(f.effective_averages, 4) << " effective)";
+  }
+  std::size_t good = 0, below = 0;
+  double lo = 0, hi = 0;
+  const double gc = 0.9;  // "good" coherence, common practice
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    if (f.coherence[i] >= gc) {
+      if (good++ == 0) lo = f.freq_hz[i];
+      hi = f.freq_hz[i];
+    }
+    if (!f.reliable[i]) ++below;
+  }
+  s << "\n  " << f.size() << " lines " << num(f.freq_hz.front(), 5) << " to " << num(f.freq_hz.back(), 6) << " Hz; ";
+  if (good > 0)
+    s << "coherence >= " << gc << " on " << num(lo, 4) << " to " << num(hi, 5) << " Hz (" << good << " of "
+      << f.size() << " lines); ";
+  else
+    s << "no line with coherence >= " << gc << "; ";
+  s << below << " lines at or below the " << num(f.confidence * 100, 3) << " % zero-coherence bound "
+    << num(f.coherence_bound, 3) << " (flagged unreliable)";
+  return s.str();
+}
+
+}  // namespace benchid::ident

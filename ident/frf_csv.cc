@@ -1,0 +1,187 @@
+#include "ident/frf_csv.h"
+
+#include <charconv>
+#include <cmath>
+#include <cstdio>
+#include <fstream>
+#include <limits>
+#include <map>
+#include <numbers>
+#include <sstream>
+
+#include "ident/error.h"
+
+namespace benchid::ident {
+
+namespace {
+std::string label(const std::string& name, const std::string& unit) {
+  return unit.empty() ? name : name + " [" + unit + "]";
+}
+}  // namespace
+
+void write_frf_csv(std::ostream& out, const Frf& f) {
+  out << "# benchid frf 1\n";
+  char b[512];
+  std::snprintf(b, sizeof b, "# rate_hz=%.10g\n", f.rate_hz);
+  out << b;
+  out << "# estimator=" << estimator_name(f.estimator) << "\n";
+  out << "# window=" << window_name(f.window) << "\n";
+  out << "# detrend=" << detrend_name(f.detrend) << "\n";
+  out << "# segment=" << f.segment << "\n";
+  std::snprintf(b, sizeof b, "# overlap=%.6g\n", f.overlap);
+  out << b;
+  out << "# averages=" << f.averages << "\n";
+  std::snprintf(b, sizeof b, "# effective_averages=%.6g\n", f.effective_averages);
+  out << b;
+  std::snprintf(b, sizeof b, "# coherence_bound=%.6g\n# confidence=%.6g\n", f.coherence_bound, f.confidence);
+  out << b;
+  out << "# samples=" << f.samples << "\n";
+  out << "# input=" << label(f.input, f.input_unit) << "\n";
+  out << "# output=" << label(f.output, f.output_unit) << "\n";
+  if (!f.reference.empty()) out << "# reference=" << f.reference << "\n";
+  if (f.loop_gain) out << "# quantity=loop_gain\n";
+  out << "# source=" << f.source << "\n";
+  out << "freq_hz,re,im,mag_db,phase_deg,coherence,rel_err,reliable\n";
+  const auto mag = f.mag_db();
+  const auto ph = f.phase_deg();
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    int n = std::snprintf(b, sizeof b, "%.10g,%.12g,%.12g,%.6f,%.5f,", f.freq_hz[i], f.h[i].real(),
+                          f.h[i].imag(), mag[i], ph[i]);
+    out.write(b, n);
+    if (std::isfinite(f.coherence[i])) {
+      n = std::snprintf(b, sizeof b, "%.8f", f.coherence[i]);
+      out.write(b, n);
+    }
+    out << ',';
+    if (std::isfinite(f.rel_err[i])) {
+      n = std::snprintf(b, sizeof b, "%.6g", f.rel_err[i]);
+      out.write(b, n);
+    }
+    out << ',' << (f.reliable[i] ? '1' : '0') << '\n';
+  }
+}
+
+Frf read_frf_csv(const std::string& path) {
+  std::ifstream in(path);
+  if (!in) throw InputError("cannot open '" + path + "': no such file or not readable");
+  Frf f;
+  f.source = path;
+  std::map<std::string, std::string> meta;
+  std::string line;
+  long ln = 0;
+  std::vector<std::string> cols;
+  while (std::getline(in, line)) {
+    ++ln;
+    if (!line.empty() && line.back() == '\r') line.pop_back();
+    if (line.empty()) continue;
+    if (line[0] == '#') {
+      const auto eq = line.find('=');
+      if (eq != std::string::npos) {
+        std::string k = line.substr(1, eq - 1);
+        while (!k.empty() && k.front() == ' ') k.erase(0, 1);
+        meta[k] = line.substr(eq + 1);
+      }
+      continue;
+    }
+    std::stringstream ss(line);
+    std::string c;
+    while (std::getline(ss, c, ',')) cols.push_back(c);
+    break;
+  }
+  if (cols.empty()) throw InputError(where(path, ln) + "no header row; expected an FRF CSV from 'benchid frf'");
+  auto col = [&](const std::string& name) -> int {
+    for (std::size_t i = 0; i < cols.size(); ++i)
+      if (cols[i] == name) return static_cast<int>(i);
+    return -1;
+  };
+  const int cf = col("freq_hz"), cre = col("re"), cim = col("im"), cm = col("mag_db"), cp = col("phase_deg"),
+            cc = col("coherence"), ce = col("rel_err"), cr = col("reliable");
+  if (cf < 0 || !((cre >= 0 && cim >= 0) || (cm >= 0 && cp >= 0)))
+    throw InputError(where(path, ln) + "header lacks freq_hz and re,im (or mag_db,phase_deg); expected " +
+                     "freq_hz,re,im,mag_db,phase_deg,coherence,rel_err");
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  auto getd = [&](const std::string& k, double d) {
+    auto it = meta.find(k);
+    if (it == meta.end()) return d;
+    double v = d;
+    std::from_chars(it->second.data(), it->second.data() + it->second.size(), v);
+    return v;
+  };
+  f.rate_hz = getd("rate_hz", 0);
+  f.segment = static_cast<std::size_t>(getd("segment", 0));
+  f.overlap = getd("overlap", 0);
+  f.averages = static_cast<std::size_t>(getd("averages", 0));
+  f.effective_averages = getd("effective_averages", static_cast<double>(f.averages));
+  f.coherence_bound = getd("coherence_bound", 1.0);
+  f.confidence = getd("confidence", 0.95);
+  if (meta.count("estimator")) {
+    const std::string e = meta["estimator"];
+    f.estimator = e == "h2" ? Estimator::h2 : e == "hv" ? Estimator::hv : e == "indirect" ? Estimator::indirect
+                : e == "periodic" ? Estimator::periodic : Estimator::h1;
+  }
+  auto split_label = [](const std::string& s, std::string& name, std::string& unit) {
+    const auto o = s.rfind(" [");
+    if (o != std::string::npos && s.back() == ']') {
+      name = s.substr(0, o);
+      unit = s.substr(o + 2, s.size() - o - 3);
+    } else {
+      name = s;
+    }
+  };
+  split_label(meta["input"], f.input, f.input_unit);
+  split_label(meta["output"], f.output, f.output_unit);
+  f.reference = meta["reference"];
+  f.loop_gain = meta["quantity"] == "loop_gain";
+
+  std::vector<double> v;
+  while (std::getline(in, line)) {
+    ++ln;
+    if (!line.empty() && line.back() == '\r') line.pop_back();
+    if (line.empty() || line[0] == '#') continue;
+    v.assign(cols.size(), nan);
+    std::size_t i = 0, p = 0;
+    for (;;) {
+      std::size_t q = line.find(',', p);
+      if (q == std::string::npos) q = line.size();
+      if (i >= cols.size())
+        throw InputError(where(path, ln) + "more fields than the " + std::to_string(cols.size()) + " header columns");
+      if (q > p) {
+        double x;
+        auto r = std::from_chars(line.data() + p, line.data() + q, x);
+        if (r.ec != std::errc() || r.ptr != line.data() + q || !std::isfinite(x))
+          throw InputError(where(path, ln) + "column '" + cols[i] + "' value '" + line.substr(p, q - p) +
+                           "' is not a finite number");
+        v[i] = x;
+      }
+      ++i;
+      if (q == line.size()) break;
+      p = q + 1;
+    }
+    if (i != cols.size())
+      throw InputError(where(path, ln) + std::to_string(i) + " fields; expected " + std::to_string(cols.size()));
+    if (std::isnan(v[static_cast<std::size_t>(cf)]))
+      throw InputError(where(path, ln) + "empty freq_hz; expected a frequency in Hz");
+    const double fr = v[static_cast<std::size_t>(cf)];
+    if (!f.freq_hz.empty() && !(fr > f.freq_hz.back()))
+      throw InputError(where(path, ln) + "freq_hz " + line.substr(0, line.find(',')) +
+                       " does not increase; expected ascending frequencies");
+    std::complex<double> h;
+    if (cre >= 0 && !std::isnan(v[static_cast<std::size_t>(cre)])) {
+      h = {v[static_cast<std::size_t>(cre)], v[static_cast<std::size_t>(cim)]};
+    } else {
+      const double mag = std::pow(10.0, v[static_cast<std::size_t>(cm)] / 20.0);
+      h = std::polar(mag, v[static_cast<std::size_t>(cp)] * std::numbers::pi / 180.0);
+    }
+    if (!std::isfinite(h.real()) || !std::isfinite(h.imag()))
+      throw InputError(where(path, ln) + "response is missing; expected re,im or mag_db,phase_deg");
+    f.freq_hz.push_back(fr);
+    f.h.push_back(h);
+    f.coherence.push_back(cc >= 0 ? v[static_cast<std::size_t>(cc)] : nan);
+    f.rel_err.push_back(ce >= 0 ? v[static_cast<std::size_t>(ce)] : nan);
+    f.reliable.push_back(cr >= 0 ? v[static_cast<std::size_t>(cr)] == 1.0 : 1);
+  }
+  if (f.freq_hz.empty()) throw InputError(where(path, ln) + "no data rows; expected one row per frequency line");
+  return f;
+}
+
+}  // namespace benchid::ident

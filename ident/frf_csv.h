@@ -1,0 +1,22 @@
+// benchid's FRF CSV file (DESIGN.md, "File formats"):
+//   "# key=value" metadata lines, then the header
+//   freq_hz,re,im,mag_db,phase_deg,coherence,rel_err,reliable
+// one row per line above 0 Hz; phase unwrapped; rel_err empty where undefined.
+// `reliable` (1/0) is the coherence test against the zero-coherence bound given
+// in the metadata; it extends DESIGN.md's column list, and readers find
+// columns by name, so files without it are still read.
+#pragma once
+
+#include <ostream>
+#include <string>
+
+#include "ident/frf.h"
+
+namespace benchid::ident {
+
+void write_frf_csv(std::ostream& out, const Frf& f);
+// Reads a file written by write_frf_csv (or by hand with at least freq_hz and
+// re/im or mag_db/phase_deg). Throws InputError naming file and line.
+Frf read_frf_csv(const std::string& path);
+
+}  // namespace benchid::ident

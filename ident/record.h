@@ -1,0 +1,94 @@
+// Recordings: named channels of double samples at a uniform rate.
+//
+// A recording is read through a RecordReader, which streams blocks of frames
+// so that a log far larger than memory is processed in one pass with bounded
+// memory. read_record() reads a whole recording for small files and tests.
+//
+// Channel numbering (DESIGN.md): channels are numbered from 1 in file order;
+// for a CSV log every column counts, the time column included, so in
+// "time_s,u,y" channel 2 is "u". Sound-file channels are 1..channels.
+// Sample values are in the channel's unit (CSV: as written; sound file: full
+// scale = 1.0 unless a scale factor in units per full scale is set).
+#pragma once
+
+#include <cstddef>
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace benchid::ident {
+
+struct ChannelInfo {
+  std::string name;  // as in the header, without a bracketed unit ("speed [rad/s]" -> "speed")
+  std::string unit;  // "rad/s", or inferred from a suffix ("speed_rads" -> "rad/s"); may be empty
+};
+
+struct RecordInfo {
+  std::string path;
+  std::string format;                 // "csv" or the sound-file format name ("wav", "flac", ...)
+  std::vector<ChannelInfo> channels;  // every column / sound channel, in file order
+  int time_channel = -1;              // index of the time column, -1 if none (CSV only)
+  double rate_hz = 0;                 // sampling rate; see RecordReader::rate_hz()
+  std::optional<std::size_t> frames;  // known up front for sound files
+};
+
+// Options for opening a recording. Defaults suit a DAQ or drive-scope log.
+struct ReadOptions {
+  double rate_hz = 0;           // > 0: use this rate and ignore any time column; 0: from the file
+  double jitter_tolerance = 0.01;  // allowed deviation of one time step, as a fraction of the
+                                   // nominal step (plus the printed resolution of the time values)
+};
+
+class RecordReader {
+ public:
+  virtual ~RecordReader() = default;
+  const RecordInfo& info() const { return info_; }
+
+  // Resolves a channel given as a name (exact, then case-insensitive; the
+  // header text with its unit also matches) or as a 1-based number. Throws
+  // InputError listing the channels when there is no such channel.
+  std::size_t channel_index(const std::string& spec) const;
+
+  // Chooses which channels read_block() delivers, in this order.
+  virtual void select(const std::vector<std::size_t>& channels);
+  // Multiplies a channel's samples by factor (units per full scale for sound files).
+  void set_scale(std::size_t channel, double factor);
+
+  // Reads up to max_frames frames of the selected channels into out[i]
+  // (resized to the frames read). Returns the number of frames; 0 at the end.
+  // Throws InputError on malformed data, naming file and line.
+  virtual std::size_t read_block(std::size_t max_frames, std::vector<std::vector<double>>& out) = 0;
+
+  // Sampling rate in Hz. For a CSV log with a time column the value is
+  // provisional until the end of the data is reached; then it is
+  // (frames - 1) / (t_last - t_first).
+  virtual double rate_hz() const { return info_.rate_hz; }
+  std::size_t frames_read() const { return frames_read_; }
+  // Counts the data frames without delivering them (a fast scan for CSV).
+  virtual std::size_t count_frames() = 0;
+  // Warnings met while reading (clipping, ignored time column), one line each.
+  const std::vector<std::string>& warnings() const { return warnings_; }
+
+ protected:
+  RecordInfo info_;
+  std::vector<std::size_t> selected_;
+  std::vector<double> scale_;  // per channel in info_.channels
+  std::size_t frames_read_ = 0;
+  std::vector<std::string> warnings_;
+};
+
+// Opens a recording. The format is told from the content, not the name:
+// RIFF/RF64/FORM/fLaC/OggS/... headers go to libsndfile, text to the CSV reader.
+std::unique_ptr<RecordReader> open_record(const std::string& path, const ReadOptions& opts = {});
+
+// A whole recording in memory.
+struct Record {
+  std::string path;
+  double rate_hz = 0;
+  std::vector<ChannelInfo> channels;         // every channel but the time column
+  std::vector<std::vector<double>> samples;  // samples[c][n]
+};
+Record read_record(const std::string& path, const ReadOptions& opts = {});
+
+}  // namespace benchid::ident
