@@ -45,7 +45,7 @@ void run_frf(const FrfArgs& a) {
   ro.rate_hz = a.rate_hz;
   ro.jitter_tolerance = a.jitter;
   if (!(a.jitter > 0 && a.jitter < 0.5))
-    throw InputError("--jitter-tolerance " + std::to_string(a.jitter) + ": expected a fraction in (0, 0.5)");
+    throw InputError("--jitter-tolerance " + fmt_num(a.jitter) + ": expected a fraction in (0, 0.5)");
   auto reader = ident::open_record(a.record, ro);
   for (const auto& s : a.scales) {
     const auto c = s.rfind(':');

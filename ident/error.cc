@@ -1,5 +1,7 @@
 #include "ident/error.h"
 
+#include <cstdio>
+
 namespace benchid {
 
 std::string where(const std::string& file, long line) {
@@ -7,4 +9,12 @@ std::string where(const std::string& file, long line) {
   return file + ": ";
 }
 
+}  // namespace benchid
+
+namespace benchid {
+std::string fmt_num(double v) {
+  char b[32];
+  std::snprintf(b, sizeof b, "%.6g", v);
+  return b;
+}
 }  // namespace benchid

@@ -22,5 +22,7 @@ class InputError : public std::runtime_error {
 
 // "FILE:LINE: message" when line > 0, else "FILE: message".
 std::string where(const std::string& file, long line = 0);
+// A number as a user would write it (%.6g): "1.2", "4096", "2.5e-05".
+std::string fmt_num(double v);
 
 }  // namespace benchid

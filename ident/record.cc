@@ -65,7 +65,7 @@ void RecordReader::set_scale(std::size_t channel, double factor) {
     throw InputError(where(info_.path) + "scale for channel " + std::to_string(channel + 1) +
                      ": no such channel");
   if (!std::isfinite(factor) || factor == 0.0)
-    throw InputError(where(info_.path) + "scale factor " + std::to_string(factor) +
+    throw InputError(where(info_.path) + "scale factor " + fmt_num(factor) +
                      " for channel '" + info_.channels[channel].name +
                      "': expected a finite non-zero number");
   if (scale_.size() < info_.channels.size()) scale_.resize(info_.channels.size(), 1.0);

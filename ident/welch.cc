@@ -30,7 +30,7 @@ void validate(const WelchOptions& o) {
   if (o.segment < 8 || o.segment > (std::size_t{1} << 26))
     throw InputError("segment = " + std::to_string(o.segment) + ": must be in [8, 67108864] samples");
   if (!(o.overlap >= 0.0 && o.overlap <= 0.95))
-    throw InputError("overlap = " + std::to_string(o.overlap) + ": must be in [0, 0.95]");
+    throw InputError("overlap = " + fmt_num(o.overlap) + ": must be in [0, 0.95]");
 }
 
 std::size_t overlap_samples(const WelchOptions& o) {
