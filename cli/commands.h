@@ -5,6 +5,9 @@
 
 namespace benchid::cli {
 
-void add_frf_command(CLI::App& app);
+#include <string>
+
+// command_line: the invocation as typed, quoted in reports.
+void add_frf_command(CLI::App& app, const std::string& command_line);
 
 }  // namespace benchid::cli

@@ -8,6 +8,7 @@
 
 #include "cli/commands.h"
 #include "cli/output.h"
+#include "cli/text_report.h"
 #include "ident/error.h"
 #include "ident/frf.h"
 #include "ident/frf_csv.h"
@@ -18,7 +19,8 @@ namespace benchid::cli {
 namespace {
 
 struct FrfArgs {
-  std::string record, input, output, reference, out;
+  std::string record, input, output, reference, out, report;
+  std::string command_line;
   double rate_hz = 0;
   std::size_t segment = 0;
   double resolution_hz = 0;
@@ -41,6 +43,8 @@ double parse_double(const std::string& s, const std::string& what) {
 
 void run_frf(const FrfArgs& a) {
   refuse_overwriting_input(a.out, {a.record});
+  refuse_overwriting_input(a.report, {a.record});
+  if (!a.report.empty() && a.report == a.out) throw InputError("--report and -o name the same file '" + a.out + "'; expected two paths");
   ident::ReadOptions ro;
   ro.rate_hz = a.rate_hz;
   ro.jitter_tolerance = a.jitter;
@@ -75,17 +79,20 @@ void run_frf(const FrfArgs& a) {
   std::ostringstream csv;
   ident::write_frf_csv(csv, f);
   write_file_atomically(a.out.empty() ? "-" : a.out, csv.str());
+  if (!a.report.empty()) write_file_atomically(a.report, frf_text_report(f, a.command_line));
   if (!a.quiet) {
     std::cerr << "benchid frf: " << ident::summary(f) << "\n";
     for (const auto& w : f.warnings) std::cerr << "benchid: warning: " << w << "\n";
     if (!a.out.empty() && a.out != "-") std::cerr << "  wrote " << a.out << "\n";
+    if (!a.report.empty()) std::cerr << "  wrote " << a.report << "\n";
   }
 }
 
 }  // namespace
 
-void add_frf_command(CLI::App& app) {
+void add_frf_command(CLI::App& app, const std::string& command_line) {
   auto a = std::make_shared<FrfArgs>();
+  a->command_line = command_line;
   CLI::App* c = app.add_subcommand(
       "frf",
       "Estimate a frequency response (FRF) with coherence and error bars from a recording of an\n"
@@ -100,6 +107,8 @@ void add_frf_command(CLI::App& app) {
                 "Reference channel (e.g. the injected or setpoint signal) for closed-loop data: the plant "
                 "is estimated by the indirect method G_ry/G_ru, unbiased by feedback of output noise");
   c->add_option("-o,--out", a->out, "FRF CSV to write (default: stdout); never an input path");
+  c->add_option("--report", a->report, "Also write a plain-text report (settings, quality, selected lines with "
+                "error bars, warnings, caution) to this file");
   c->add_option("--rate", a->rate_hz, "Sampling rate in Hz; needed when the log has no time column. When "
                 "given, a time column is ignored (default: from the time column or the sound file)");
   c->add_option("--segment", a->segment, "Samples per Welch segment (default 4096; a power of two is fastest). "

@@ -6,6 +6,7 @@
 #include <exception>
 #include <iostream>
 #include <new>
+#include <string>
 
 #include "cli/commands.h"
 #include "ident/error.h"
@@ -17,7 +18,9 @@ int main(int argc, char** argv) {
   app.name("benchid");
   app.require_subcommand(1);
   app.set_version_flag("--version", "benchid 0.1.0");
-  benchid::cli::add_frf_command(app);
+  std::string command_line = "benchid";
+  for (int i = 1; i < argc; ++i) (command_line += ' ') += argv[i];
+  benchid::cli::add_frf_command(app, command_line);
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

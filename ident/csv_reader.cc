@@ -14,7 +14,9 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <array>
 #include <cerrno>
+#include <cstdint>
 #include <charconv>
 #include <cmath>
 #include <cstring>
@@ -68,6 +70,57 @@ int printed_places(std::string_view s) {
     std::from_chars(e.data(), e.data() + e.size(), exp);
   }
   return frac - exp;
+}
+
+// Clinger's fast path (W. D. Clinger, "How to read floating point numbers
+// accurately", PLDI 1990): a decimal with at most 15 significant digits and
+// a power of ten within 1e+-22 is m * 10^e or m / 10^e of two exact doubles,
+// so one IEEE operation rounds it correctly, the same double std::from_chars
+// gives. Returns the end of the number, or nullptr when the text is outside
+// the fast path (then std::from_chars decides, and reports errors).
+const char* parse_decimal_fast(const char* p, const char* e, double& out) {
+  static constexpr double kPow10[] = {1e0,  1e1,  1e2,  1e3,  1e4,  1e5,  1e6,  1e7,  1e8,  1e9,  1e10, 1e11,
+                                      1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+  bool neg = false;
+  if (p < e && (*p == '-' || *p == '+')) neg = *p++ == '-';
+  std::uint64_t m = 0;
+  int sig = 0, e10 = 0;
+  bool any = false;
+  for (; p < e && static_cast<unsigned>(*p - '0') < 10; ++p) {
+    any = true;
+    const int d = *p - '0';
+    if (m == 0 && d == 0) continue;
+    if (++sig > 15) return nullptr;
+    m = m * 10 + static_cast<unsigned>(d);
+  }
+  if (p < e && *p == '.') {
+    for (++p; p < e && static_cast<unsigned>(*p - '0') < 10; ++p) {
+      any = true;
+      const int d = *p - '0';
+      --e10;
+      if (m == 0 && d == 0) continue;
+      if (++sig > 15) return nullptr;
+      m = m * 10 + static_cast<unsigned>(d);
+    }
+  }
+  if (!any) return nullptr;
+  if (p < e && (*p == 'e' || *p == 'E')) {
+    ++p;
+    bool eneg = false;
+    if (p < e && (*p == '-' || *p == '+')) eneg = *p++ == '-';
+    int x = 0;
+    const char* s = p;
+    for (; p < e && static_cast<unsigned>(*p - '0') < 10 && x < 10000; ++p) x = x * 10 + (*p - '0');
+    if (p == s) return nullptr;
+    e10 += eneg ? -x : x;
+  }
+  double v = static_cast<double>(m);
+  if (m != 0) {
+    if (e10 < -22 || e10 > 22) return nullptr;
+    v = e10 < 0 ? v / kPow10[-e10] : v * kPow10[e10];
+  }
+  out = neg ? -v : v;
+  return p;
 }
 
 struct TimeName {
@@ -435,21 +488,24 @@ class CsvReader final : public RecordReader {
 
   void check_time(double t_raw, const char* fb, const char* fe, long line) {
     const double t = t_raw * time_scale_;
-    const int places = printed_places(std::string_view(fb, static_cast<std::size_t>(fe - fb)));
-    const double quantum = std::pow(10.0, -places) * time_scale_;
     const std::size_t k = frames_read_ + rows_in_block_;  // index of this sample
+    const std::size_t len = std::min<std::size_t>(static_cast<std::size_t>(fe - fb), prev_text_.size());
     if (k == 0) {
       t_first_ = t_last_ = t;
-      prev_quantum_ = quantum;
+      std::memcpy(prev_text_.data(), fb, len);
+      prev_len_ = len;
       return;
     }
     if (!(t > t_last_))
       throw InputError(where(info_.path, line) + "time " + fmt(t) + " s is not after the previous " +
                        fmt(t_last_) + " s; expected strictly increasing time");
     const double step = t - t_last_;
-    if (k >= 2) {
-      const double tol = opts_.jitter_tolerance * dt_nominal_ + std::max(quantum, prev_quantum_);
-      if (std::fabs(step - dt_nominal_) > tol)
+    if (k >= 2 && std::fabs(step - dt_nominal_) > opts_.jitter_tolerance * dt_nominal_) {
+      // Outside the plain tolerance: allow for the rounding of the printed
+      // time stamps (their last decimal place) before refusing.
+      const auto quantum = [&](std::string_view s) { return std::pow(10.0, -printed_places(s)) * time_scale_; };
+      const double q = std::max(quantum({fb, static_cast<std::size_t>(fe - fb)}), quantum({prev_text_.data(), prev_len_}));
+      if (std::fabs(step - dt_nominal_) > opts_.jitter_tolerance * dt_nominal_ + q)
         throw InputError(where(info_.path, line) + "time step " + fmt(step) + " s (at " + fmt(t) +
                          " s); expected " + fmt(dt_nominal_) + " s within " +
                          fmt(opts_.jitter_tolerance * 100) +
@@ -458,7 +514,8 @@ class CsvReader final : public RecordReader {
     }
     if (k <= 1024) dt_nominal_ = (t - t_first_) / static_cast<double>(k);
     t_last_ = t;
-    prev_quantum_ = quantum;
+    std::memcpy(prev_text_.data(), fb, len);
+    prev_len_ = len;
   }
 
   static std::string fmt(double v) {
@@ -476,14 +533,27 @@ class CsvReader final : public RecordReader {
     double t = 0;
     if (delim_ != 0) {
       for (;;) {
-        const char* q = static_cast<const char*>(std::memchr(p, delim_, static_cast<std::size_t>(e - p)));
-        if (!q) q = e;
-        if (col < ncols_) {
-          const int s = slot_[col];
-          if (s >= 0) out[static_cast<std::size_t>(s)][n] = parse_number(p, q, col, line);
-          else if (s == kTimeSlot) t = parse_number(p, q, col, line), tb = p, te = q;
-        } else if (col == ncols_ && q == e && trim(std::string_view(p, static_cast<std::size_t>(q - p))).empty()) {
-          break;  // trailing delimiter
+        const int s = col < ncols_ ? slot_[col] : -1;
+        const char* q = nullptr;  // end of this field
+        if (s != -1 && !decimal_comma_) {
+          // fast path: the number, then the delimiter or the end of the line
+          double v;
+          const char* r = parse_decimal_fast(p, e, v);
+          if (r && (r == e || *r == delim_)) {
+            q = r;
+            if (s >= 0) out[static_cast<std::size_t>(s)][n] = v;
+            else t = v, tb = p, te = q;
+          }
+        }
+        if (!q) {
+          q = static_cast<const char*>(std::memchr(p, delim_, static_cast<std::size_t>(e - p)));
+          if (!q) q = e;
+          if (col < ncols_) {
+            if (s >= 0) out[static_cast<std::size_t>(s)][n] = parse_number(p, q, col, line);
+            else if (s == kTimeSlot) t = parse_number(p, q, col, line), tb = p, te = q;
+          } else if (col == ncols_ && q == e && trim(std::string_view(p, static_cast<std::size_t>(q - p))).empty()) {
+            break;  // trailing delimiter
+          }
         }
         ++col;
         if (q == e) break;
@@ -527,7 +597,9 @@ class CsvReader final : public RecordReader {
   // time column
   bool use_time_ = false;
   double time_scale_ = 1.0;
-  double t_first_ = 0, t_last_ = 0, dt_nominal_ = 0, prev_quantum_ = 0;
+  double t_first_ = 0, t_last_ = 0, dt_nominal_ = 0;
+  std::array<char, 48> prev_text_{};  // previous time stamp as printed
+  std::size_t prev_len_ = 0;
   std::size_t rows_in_block_ = 0;
 
   void detect_decimal_comma() {

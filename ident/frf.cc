@@ -72,17 +72,24 @@ std::vector<double> Frf::mag_db() const {
 }
 
 std::vector<double> Frf::phase_deg() const {
+  // Unwrapped along the trusted lines: reliable, with a phase s.d. (= rel_err
+  // in rad, Bendat & Piersol) of at most 0.25 rad, so a 180 deg ambiguity is
+  // beyond 12 sigma. Other lines take the branch nearest the last trusted
+  // phase without moving the reference, so noise cannot wind it off by turns.
+  constexpr double kMaxPhaseSdRad = 0.25;
   std::vector<double> p(h.size());
-  double offset = 0, prev = 0;
+  const bool flags = reliable.size() == h.size() && rel_err.size() == h.size() && effective_averages > 1;
+  double ref = 0;
+  bool have_ref = false;
   for (std::size_t i = 0; i < h.size(); ++i) {
-    const double a = std::arg(h[i]) * 180.0 / std::numbers::pi;
-    if (i > 0) {
-      double d = a + offset - prev;
-      while (d > 180.0) offset -= 360.0, d -= 360.0;
-      while (d <= -180.0) offset += 360.0, d += 360.0;
+    double a = std::arg(h[i]) * 180.0 / std::numbers::pi;
+    if (have_ref) a -= 360.0 * std::round((a - ref) / 360.0);
+    p[i] = a;
+    const bool trusted = !flags || (reliable[i] && !(rel_err[i] > kMaxPhaseSdRad));
+    if (trusted || !have_ref) {
+      ref = a;
+      have_ref = true;
     }
-    p[i] = a + offset;
-    prev = p[i];
   }
   return p;
 }

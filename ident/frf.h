@@ -85,7 +85,9 @@ struct Frf {
   double resolution_hz() const { return segment ? rate_hz / static_cast<double>(segment) : 0; }
   // 20 log10 |H|, dB
   std::vector<double> mag_db() const;
-  // arg H in degrees, unwrapped along frequency (starting in (-180, 180])
+  // arg H in degrees, unwrapped along the lines whose phase is trusted
+  // (reliable, phase s.d. <= 0.25 rad), starting in (-180, 180]; other lines
+  // lie within 180 deg of the last trusted one
   std::vector<double> phase_deg() const;
 };
 

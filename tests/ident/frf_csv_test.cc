@@ -17,11 +17,13 @@ namespace {
 
 Frf sample_frf() {
   Frf f;
-  f.source = "log.csv";
-  f.input = "drive";
-  f.input_unit = "V";
-  f.output = "speed";
-  f.output_unit = "rad/s";
+  // std::string(...) rather than a bare literal: GCC 12 warns falsely
+  // (-Wrestrict, GCC bug 105329) on assigning short literals here
+  f.source = std::string("log.csv");
+  f.input = std::string("drive");
+  f.input_unit = std::string("V");
+  f.output = std::string("speed");
+  f.output_unit = std::string("rad/s");
   f.rate_hz = 2000;
   f.segment = 4096;
   f.overlap = 0.5;

@@ -1,0 +1,13 @@
+#!/usr/bin/env bash
+# Builds benchid and runs the whole test suite twice: an optimised build, and
+# a build under AddressSanitizer + UndefinedBehaviorSanitizer.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+bash tools/deps.sh
+cmake -S . -B build -DCMAKE_BUILD_TYPE=Release -DBENCHID_TESTS=ON >/dev/null
+cmake --build build -j2
+ctest --test-dir build --output-on-failure -j2
+cmake -S . -B build-sanitize -DCMAKE_BUILD_TYPE=RelWithDebInfo -DBENCHID_TESTS=ON -DBENCHID_SANITIZE=ON >/dev/null
+cmake --build build-sanitize -j2
+ASAN_OPTIONS=detect_leaks=1:abort_on_error=1 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
+  ctest --test-dir build-sanitize --output-on-failure -j2
