@@ -6,6 +6,8 @@
 #include <sndfile.h>
 #include <sys/wait.h>
 
+#include <cmath>
+#include <complex>
 #include <filesystem>
 #include <fstream>
 #include <sstream>
@@ -92,6 +94,66 @@ TEST(FrfCli, HelpExplainsEveryOptionWithUnitAndDefault) {
                         "--estimator", "--periods", "--period", "--band", "--scale", "--confidence",
                         "default 0.95", "--jitter-tolerance", "--loop-gain"})
     EXPECT_NE(r.out.find(s), std::string::npos) << s;
+}
+
+TEST(FrfCli, PeriodicRecordCountsPeriodsAndIsExactOnExcitedLines) {
+  // 8 periods of 500 samples of a multisine on every 4th line through a
+  // one-pole low-pass y[n] = 0.9 y[n-1] + 0.1 u[n]; one period of settling is
+  // logged first and dropped with the lines' own transient (0.9^500 ~ 1e-23).
+  TempDir d;
+  const std::size_t period = 500, periods = 9;
+  std::vector<double> u(period * periods), y(u.size());
+  for (std::size_t i = 0; i < u.size(); ++i)
+    for (std::size_t k = 4; k < 200; k += 4)
+      u[i] += std::cos(2 * M_PI * static_cast<double>(k * (i % period)) / period + 0.37 * static_cast<double>(k * k));
+  double state = 0;
+  for (std::size_t i = 0; i < u.size(); ++i) y[i] = state = 0.9 * state + 0.1 * u[i];
+  std::string s = "u,y\n";
+  char b[96];
+  for (std::size_t i = period; i < u.size(); ++i) {
+    std::snprintf(b, sizeof b, "%.17g,%.17g\n", u[i], y[i]);
+    s += b;
+  }
+  const auto log = d.write("ms.csv", s);
+  const Outcome r = run(d, "frf " + log + " --input u --output y --rate 1000 --periods 8 -o " + d.file("frf.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  const auto f = benchid::ident::read_frf_csv(d.file("frf.csv"));
+  EXPECT_EQ(f.estimator, benchid::ident::Estimator::periodic);
+  EXPECT_EQ(f.averages, 8u);
+  ASSERT_EQ(f.size(), 49u);  // lines 4, 8, ..., 196; the others carry no excitation
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    const auto z1 = std::polar(1.0, -2 * M_PI * f.freq_hz[i] / 1000.0);
+    const std::complex<double> h = 0.1 / (1.0 - 0.9 * z1);
+    // noise-free and leakage-free: only the CSV's 12 significant digits remain
+    EXPECT_LT(std::abs(f.h[i] - h) / std::abs(h), 1e-9) << f.freq_hz[i];
+  }
+  EXPECT_NE(r.err.find("lines left out as not excited"), std::string::npos) << r.err;
+}
+
+TEST(FrfCli, SoundFileChannelsAreScaledToUnits) {
+  // ch2 = 0.25 ch1 in full scale; --scale 1:10 --scale 2:4 (units per full
+  // scale) makes the response (0.25*4)/10 = 0.1 in units.
+  TempDir d;
+  SF_INFO info{};
+  info.samplerate = 8000;
+  info.channels = 2;
+  info.format = SF_FORMAT_WAV | SF_FORMAT_FLOAT;
+  SNDFILE* f = sf_open(d.file("rig.wav").c_str(), SFM_WRITE, &info);
+  Gaussian g(3);
+  std::vector<float> buf(2 * 40000);
+  for (std::size_t i = 0; i < 40000; ++i) {
+    const double x = 0.2 * g();
+    buf[2 * i] = static_cast<float>(x);
+    buf[2 * i + 1] = static_cast<float>(0.25 * x);
+  }
+  sf_writef_float(f, buf.data(), 40000);
+  sf_close(f);
+  const Outcome r = run(d, "frf " + d.file("rig.wav") + " --input 1 --output 2 --scale 1:10 --scale 2:4 --segment 1024 -o " +
+                               d.file("frf.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  const auto fr = benchid::ident::read_frf_csv(d.file("frf.csv"));
+  EXPECT_NEAR(fr.rate_hz, 8000.0, 0.0);
+  for (std::size_t i = 0; i < fr.size(); i += 50) EXPECT_NEAR(std::abs(fr.h[i]), 0.1, 1e-6) << fr.freq_hz[i];  // float samples
 }
 
 struct BadCase {

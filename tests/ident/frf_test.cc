@@ -197,6 +197,33 @@ TEST(Frf, H1IsBiasedUnderFeedbackButIndirectIsNot) {
   EXPECT_CLOSE(ClosedLoop::plant(5.0 / 512), std::complex<double>(0.92124, -0.28514), 1e-4);  // table "P true"
 }
 
+TEST(Frf, LoopGainFromInjectionIsMinusGdcOverGdu) {
+  // Injection d at the plant input: u = c + d, c = -C y, y = P u + v, with the
+  // plant and controller of CHECK_VALUES.md s.10. c = -C P u = -L u, so
+  // -G_dc/G_du = L = C P [D]; output noise v must not bias it.
+  const std::size_t n = 1 << 20;
+  Gaussian g(77);
+  const auto d = g.take(n);
+  const auto v = g.take(n, 0.5);
+  std::vector<double> u(n), c(n);
+  double x = 0, u_prev = 0;
+  for (std::size_t i = 0; i < n; ++i) {
+    x = 0.8 * x + 0.2 * u_prev;
+    c[i] = -2.0 * (x + v[i]);
+    u[i] = c[i] + d[i];
+    u_prev = u[i];
+  }
+  FrfOptions o;
+  o.welch.segment = 512;
+  o.loop_gain = true;
+  WelchAccumulator acc(o.welch, 3);
+  acc.push({u, c, d});
+  const Frf f = frf_from_spectra(acc.finish(1.0), 0, 1, 2, o);
+  const double ratio = normalized_error_ratio(f, [](double fr) { return 2.0 * ClosedLoop::plant(fr); });
+  // as in the closed-loop test: ~170 independent lines, 4 s.d. of the mean
+  EXPECT_NEAR(ratio, 1.0, 0.31);
+}
+
 TEST(Frf, IndirectWithInputAsReferenceReducesToH1) {
   // With r = u, G_ry/G_ru = G_uy/G_uu and the error formula reduces to B&P's [D].
   const Biquad lp = Biquad::butterworth_lowpass(0.1);
