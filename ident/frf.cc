@@ -399,8 +399,8 @@ std::string summary(const Frf& f) {
   }
   s << "\n  " << f.size() << " lines " << num(f.freq_hz.front(), 5) << " to " << num(f.freq_hz.back(), 6) << " Hz; ";
   if (good > 0)
-    s << "coherence >= " << gc << " on " << num(lo, 4) << " to " << num(hi, 5) << " Hz (" << good << " of "
-      << f.size() << " lines); ";
+    s << good << " lines with coherence >= " << gc << ", between " << num(lo, 4) << " and " << num(hi, 5)
+      << " Hz; ";
   else
     s << "no line with coherence >= " << gc << "; ";
   s << below << " lines at or below the " << num(f.confidence * 100, 3) << " % zero-coherence bound "
