@@ -3,6 +3,7 @@
 #include <cmath>
 #include <iostream>
 #include <limits>
+#include <optional>
 #include <sstream>
 #include <unistd.h>
 
@@ -12,7 +13,9 @@
 #include "ident/error.h"
 #include "ident/frf.h"
 #include "ident/frf_csv.h"
+#include "ident/excite_io.h"
 #include "ident/record.h"
+#include "ident/stepped.h"
 
 namespace benchid::cli {
 
@@ -27,6 +30,10 @@ struct FrfArgs {
   double overlap = ident::WelchOptions{}.overlap;
   std::string window = "hann", detrend = "mean", estimator = "h1", band;
   std::size_t periods = 0, period = 0;
+  long skip_periods = -1;  // -1: from the excitation (1 when it has 3 or more periods), else 0
+  std::string excitation, stepped, step_freqs;
+  double step_s = 0, settle_s = 0, plan_offset_s = 0;
+  bool refine_frequency = false;
   std::vector<std::string> scales;
   double confidence = ident::FrfOptions{}.confidence;
   double jitter = ident::ReadOptions{}.jitter_tolerance;
@@ -42,11 +49,24 @@ double parse_double(const std::string& s, const std::string& what) {
 }
 
 void run_frf(const FrfArgs& a) {
-  refuse_overwriting_input(a.out, {a.record});
-  refuse_overwriting_input(a.report, {a.record});
-  if (!a.report.empty() && a.report == a.out) throw InputError("--report and -o name the same file '" + a.out + "'; expected two paths");
+  if (!a.excitation.empty() && !a.stepped.empty()) throw InputError("give --excitation or --stepped, not both");
+  std::string side_path = !a.excitation.empty() ? a.excitation : a.stepped;
+  refuse_overwriting_input(a.out, {a.record, side_path});
+  refuse_overwriting_input(a.report, {a.record, side_path});
+  if (!a.report.empty() && a.report == a.out)
+    throw InputError("--report and -o name the same file '" + a.out + "'; expected two paths");
+  std::optional<ident::Sidecar> side;
+  if (!side_path.empty()) {
+    side = ident::read_sidecar(side_path);
+    if (!a.stepped.empty() && side->excitation.kind != "steps")
+      throw InputError(a.stepped + ": kind '" + side->excitation.kind + "' is not a stepped-sine plan; expected "
+                       "kind steps (or use --excitation)");
+  }
+  const bool stepped = (side && side->excitation.kind == "steps") || !a.step_freqs.empty();
+  if (!a.step_freqs.empty() && side) throw InputError("give --step-freqs or a plan, not both");
   ident::ReadOptions ro;
   ro.rate_hz = a.rate_hz;
+  if (side) ro.fallback_rate_hz = side->excitation.rate_hz;
   ro.jitter_tolerance = a.jitter;
   if (!(a.jitter > 0 && a.jitter < 0.5))
     throw InputError("--jitter-tolerance " + fmt_num(a.jitter) + ": expected a fraction in (0, 0.5)");
@@ -75,7 +95,55 @@ void run_frf(const FrfArgs& a) {
     o.band_lo_hz = c == 0 ? 0 : parse_double(a.band.substr(0, c), "--band LO");
     o.band_hi_hz = c + 1 == a.band.size() ? 0 : parse_double(a.band.substr(c + 1), "--band HI");
   }
-  const ident::Frf f = ident::estimate_frf(*reader, {a.input, a.output, a.reference}, o);
+  ident::Frf f;
+  if (stepped) {
+    if (!a.reference.empty()) throw InputError("a stepped-sine FRF takes no --reference");
+    ident::SteppedOptions so;
+    so.offset_s = a.plan_offset_s;
+    so.refine_frequency = a.refine_frequency;
+    so.band_lo_hz = o.band_lo_hz;
+    so.band_hi_hz = o.band_hi_hz;
+    std::vector<ident::Step> steps;
+    double plan_rate = reader->rate_hz();
+    if (side) {
+      steps = side->excitation.steps;
+      plan_rate = side->excitation.rate_hz;
+    } else {
+      std::vector<double> freqs;
+      std::size_t p = 0;
+      while (p <= a.step_freqs.size()) {
+        std::size_t q = a.step_freqs.find(',', p);
+        if (q == std::string::npos) q = a.step_freqs.size();
+        freqs.push_back(parse_double(a.step_freqs.substr(p, q - p), "--step-freqs item"));
+        p = q + 1;
+      }
+      if (!(plan_rate > 0)) throw InputError("the rate is not known before reading; give --rate");
+      steps = ident::steps_from_list(freqs, a.step_s, a.settle_s, plan_rate);
+    }
+    f = ident::estimate_stepped(*reader, {a.input, a.output, ""}, steps, plan_rate, so);
+  } else {
+    if (side) {
+      const ident::Excitation& e = side->excitation;
+      if (e.period == 0) throw InputError(side_path + ": period_samples is 0; expected a periodic excitation");
+      if (a.periods || a.period) throw InputError("--periods/--period come from --excitation; give one or the other");
+      o.period = e.period;
+      if (e.kind == "multisine" || e.kind == "prbs") o.lines = e.lines;
+      if (a.band.empty() && e.band_hi_hz > 0) {
+        o.band_lo_hz = e.band_lo_hz * (1 - 1e-9);
+        o.band_hi_hz = e.band_hi_hz * (1 + 1e-9);
+      }
+      o.skip_periods = a.skip_periods >= 0 ? static_cast<std::size_t>(a.skip_periods) : (e.repeats >= 3 ? 1 : 0);
+    } else if (a.skip_periods > 0) {
+      o.skip_periods = static_cast<std::size_t>(a.skip_periods);
+    }
+    f = ident::estimate_frf(*reader, {a.input, a.output, a.reference}, o);
+  }
+  if (side) {
+    if (std::fabs(f.rate_hz - side->excitation.rate_hz) > 1e-6 * side->excitation.rate_hz)
+      throw InputError(a.record + ": recorded at " + fmt_num(f.rate_hz) + " Hz but the excitation was made for " +
+                       fmt_num(side->excitation.rate_hz) + " Hz; expected the same rate");
+    f.excitation = side->excitation.kind + " from " + side_path;
+  }
   std::ostringstream csv;
   ident::write_frf_csv(csv, f);
   write_file_atomically(a.out.empty() ? "-" : a.out, csv.str());
@@ -133,6 +201,21 @@ void add_frf_command(CLI::App& app, const std::string& command_line) {
                 "are flagged unreliable (default 0.95)");
   c->add_option("--jitter-tolerance", a->jitter, "Allowed deviation of one time step from the nominal step, as a "
                 "fraction, besides the printed resolution of the time values (default 0.01)");
+  c->add_option("--excitation", a->excitation, "Sidecar JSON from 'benchid excite': multisine and prbs records are "
+                "averaged by period over the excited lines, repeated sweeps by sweep, a steps plan is measured step "
+                "by step; the band, period and rate come from it. The record must start with the signal");
+  c->add_option("--stepped", a->stepped, "Stepped-sine plan JSON from 'benchid excite steps': one FRF point per step "
+                "by a least-squares sine fit (IEEE Std 1057) with its error and the output's THD+N");
+  c->add_option("--step-freqs", a->step_freqs, "Stepped sine without a plan: step frequencies F1,F2,... in Hz, "
+                "steps back to back from t = 0");
+  c->add_option("--step-seconds", a->step_s, "Without a plan: duration of each step, s");
+  c->add_option("--settle-seconds", a->settle_s, "Without a plan: time left out at the start of each step, s (default 0)");
+  c->add_option("--plan-offset", a->plan_offset_s, "Stepped sine: record time at which the plan's first sample was "
+                "played, s (default 0)");
+  c->add_flag("--refine-frequency", a->refine_frequency, "Stepped sine: refine each step's frequency from the input "
+              "(four-parameter fit), for generators whose frequency is not exact");
+  c->add_option("--skip-periods", a->skip_periods, "Periodic averaging: leading periods left out as transient "
+                "(default 0; with --excitation, 1 when it has 3 or more periods)");
   c->add_flag("--loop-gain", a->loop_gain, "Injection measurement: --reference is the injected signal, --input the "
               "signal after the injection point, --output the signal returning to it; reports L = -G_ry/G_ru");
   c->add_flag("-q,--quiet", a->quiet, "No summary on stderr");

@@ -20,6 +20,7 @@ int main(int argc, char** argv) {
   app.set_version_flag("--version", "benchid 0.1.0");
   std::string command_line = "benchid";
   for (int i = 1; i < argc; ++i) (command_line += ' ') += argv[i];
+  benchid::cli::add_excite_command(app);
   benchid::cli::add_frf_command(app, command_line);
   try {
     app.parse(argc, argv);

@@ -13,4 +13,21 @@ void refuse_overwriting_input(const std::string& out, const std::vector<std::str
 // Writes `content` to `path` atomically ("-" writes to stdout).
 void write_file_atomically(const std::string& path, const std::string& content);
 
+// A temporary file beside `path` for writers that need a path (libsndfile):
+// write to temp_path(), then commit() renames it into place; destroyed
+// uncommitted, it is removed.
+class PendingFile {
+ public:
+  explicit PendingFile(const std::string& path);
+  ~PendingFile();
+  PendingFile(const PendingFile&) = delete;
+  PendingFile& operator=(const PendingFile&) = delete;
+  const std::string& temp_path() const { return temp_; }
+  void commit();
+
+ private:
+  std::string path_, temp_;
+  bool done_ = false;
+};
+
 }  // namespace benchid::cli

@@ -28,6 +28,11 @@ if(NOT SNDFILE_FOUND)
   benchid_missing("libsndfile (>= 1.0.28)" "libsndfile1-dev")
 endif()
 
+find_package(nlohmann_json 3.2 QUIET)
+if(NOT TARGET nlohmann_json::nlohmann_json)
+  benchid_missing("nlohmann JSON (>= 3.2)" "nlohmann-json3-dev")
+endif()
+
 find_package(Threads REQUIRED)
 
 if(BENCHID_TESTS)

@@ -416,6 +416,8 @@ class CsvReader final : public RecordReader {
       info_.rate_hz = peek_rate();
     } else if (comment_rate_ > 0) {
       info_.rate_hz = comment_rate_;
+    } else if (opts_.fallback_rate_hz > 0) {
+      info_.rate_hz = opts_.fallback_rate_hz;
     } else {
       throw InputError(where(info_.path, header_line_) +
                        "no time column (time, t, time_s, time_ms...) and no rate; expected a time "

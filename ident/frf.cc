@@ -1,6 +1,7 @@
 #include "ident/frf.h"
 
 #include <algorithm>
+#include <cstdint>
 #include <cmath>
 #include <limits>
 #include <numbers>
@@ -36,6 +37,7 @@ const char* estimator_name(Estimator e) {
     case Estimator::hv: return "hv";
     case Estimator::indirect: return "indirect";
     case Estimator::periodic: return "periodic";
+    case Estimator::stepped: return "stepped";
   }
   return "?";
 }
@@ -198,7 +200,8 @@ Frf frf_from_spectra(const CrossSpectra& cs, std::size_t u, std::size_t y, int r
         if (o.loop_gain) h = -h;
         break;
       }
-      case Estimator::periodic: break;
+      case Estimator::periodic:
+      case Estimator::stepped: break;
     }
     if (!std::isfinite(coh)) coh = kNaN;
     f.freq_hz.push_back(fr);
@@ -228,7 +231,14 @@ Frf frf_from_periodic(const PeriodicSpectra& ps, std::size_t u, std::size_t y, c
   const double scale = 2.0 / (ps.rate_hz * static_cast<double>(ps.period));  // rect window density
   double max_u = 0;
   for (std::size_t k = 1; k < ps.bins(); ++k) max_u = std::max(max_u, std::norm(ps.mean[u][k]));
+  std::vector<std::uint8_t> planned(ps.bins(), 0);
+  for (std::size_t k : o.lines)
+    if (k < ps.bins()) planned[k] = 1;
   std::size_t unexcited = 0;
+  // output power at non-excited lines inside the excited span, and its noise
+  std::size_t first_ex = 0, last_ex = 0;
+  std::vector<std::size_t> nonexcited;
+  double excited_power = 0;
   for (std::size_t k = 1; k < ps.bins(); ++k) {
     const double fr = ps.freq_hz(k);
     if (!in_band(fr, o)) continue;
@@ -236,13 +246,20 @@ Frf frf_from_periodic(const PeriodicSpectra& ps, std::size_t u, std::size_t y, c
     const double suu = ps.cov[ps.pair_index(u, u)][k].real();
     const double syy = ps.cov[ps.pair_index(y, y)][k].real();
     const std::complex<double> suy = u <= y ? ps.cov[ps.pair_index(u, y)][k] : std::conj(ps.cov[ps.pair_index(y, u)][k]);
-    // An excited line: the input stands above numerical zero (-80 dB from the
-    // strongest line) and, with several periods, 10 dB above its own noise.
-    const bool excited = std::norm(U) > 1e-8 * max_u && (ps.periods < 2 || std::norm(U) * m > 10.0 * suu);
+    // An excited line: one the excitation's sidecar names, or else one whose
+    // input stands above numerical zero (-80 dB from the strongest line) and,
+    // with several periods, 10 dB above its own noise.
+    const bool excited = o.lines.empty()
+                             ? std::norm(U) > 1e-8 * max_u && (ps.periods < 2 || std::norm(U) * m > 10.0 * suu)
+                             : planned[k] != 0;
     if (!excited) {
       ++unexcited;
+      nonexcited.push_back(k);
       continue;
     }
+    if (first_ex == 0) first_ex = k;
+    last_ex = k;
+    excited_power += std::norm(Y);
     const std::complex<double> h = Y / U;
     const double puu = ps.power[ps.pair_index(u, u)][k].real();
     const double pyy = ps.power[ps.pair_index(y, y)][k].real();
@@ -266,8 +283,34 @@ Frf frf_from_periodic(const PeriodicSpectra& ps, std::size_t u, std::size_t y, c
   if (ps.periods > 1)
     for (std::size_t i = 0; i < f.size(); ++i) f.reliable[i] = f.coherence[i] > f.coherence_bound;
   if (unexcited > 0)
-    f.warnings.push_back(std::to_string(unexcited) + " lines left out as not excited (input below "
-                         "-80 dB of the strongest line or within 10 dB of its noise)");
+    f.warnings.push_back(std::to_string(unexcited) + " lines left out as not excited" +
+                         (o.lines.empty() ? " (input below -80 dB of the strongest line or within 10 dB of its noise)"
+                                          : " (not among the excitation's lines)"));
+  // Nonlinearity hint: a linear system puts no output at lines the input
+  // does not excite; output there above its noise is distortion (or a
+  // disturbance) (Pintelon & Schoukens, System Identification, 2nd ed. 2012,
+  // on detecting nonlinear distortions with non-excited lines; from memory).
+  double ne_power = 0, ne_noise = 0;
+  std::size_t ne = 0;
+  for (std::size_t k : nonexcited) {
+    if (k <= first_ex || k >= last_ex) continue;
+    ne_power += std::norm(ps.mean[y][k]);
+    ne_noise += ps.cov[ps.pair_index(y, y)][k].real() / m;
+    ++ne;
+  }
+  if (ne > 0 && f.size() > 0 && excited_power > 0) {
+    const double ex = excited_power / static_cast<double>(f.size());
+    f.nonexcited_lines = ne;
+    f.nonexcited_db = 10 * std::log10(std::max(ne_power / static_cast<double>(ne), 1e-300) / ex);
+    if (ps.periods > 1) {
+      f.nonexcited_noise_db = 10 * std::log10(std::max(ne_noise / static_cast<double>(ne), 1e-300) / ex);
+      if (f.nonexcited_db > f.nonexcited_noise_db + 6.0)
+        f.warnings.push_back("output at the " + std::to_string(ne) + " non-excited lines inside the band stands " +
+                             num(f.nonexcited_db - f.nonexcited_noise_db, 3) + " dB above its noise, " +
+                             num(-f.nonexcited_db, 3) + " dB below the excited lines: nonlinear distortion (or a "
+                             "disturbance at those frequencies); the linear FRF is in doubt at that level");
+    }
+  }
   return f;
 }
 
@@ -296,7 +339,7 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   std::size_t period = o.period;
   if (periodic && period == 0) {
     const std::size_t total = reader.count_frames();
-    period = total / o.periods;
+    period = total / o.periods;  // the record holds `periods` periods, skipped ones included
     if (period < 2)
       throw InputError(where(info.path) + std::to_string(total) + " samples cannot hold " +
                        std::to_string(o.periods) + " periods; expected at least 2 samples per period");
@@ -313,14 +356,15 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   Frf f;
   std::size_t samples = 0;
   if (periodic) {
-    PeriodicAccumulator acc(period, 2);
+    PeriodicAccumulator acc(period, 2, o.skip_periods);
     while (reader.read_block(o.block_frames, block) > 0) {
       samples += block[0].size();
       acc.push(block);
     }
     if (acc.periods() == 0)
-      throw InputError(where(info.path) + std::to_string(samples) + " samples, fewer than one period of " +
-                       std::to_string(period) + "; expected a record of whole periods");
+      throw InputError(where(info.path) + std::to_string(samples) + " samples, fewer than " +
+                       std::to_string(o.skip_periods + 1) + " periods of " + std::to_string(period) +
+                       " (with " + std::to_string(o.skip_periods) + " skipped); expected a record of whole periods");
     const double rate = reader.rate_hz();
     const PeriodicSpectra ps = acc.finish(rate);
     f = frf_from_periodic(ps, 0, 1, o);
@@ -382,6 +426,11 @@ std::string summary(const Frf& f) {
   if (f.estimator == Estimator::periodic) {
     s << ", " << f.averages << " periods of " << f.segment << " samples, resolution "
       << num(f.resolution_hz(), 4) << " Hz";
+  } else if (f.estimator == Estimator::stepped) {
+    double worst = 0;
+    for (double d : f.distortion_pct)
+      if (std::isfinite(d)) worst = std::max(worst, d);
+    s << ", " << f.size() << " steps by least-squares sine fit; largest output THD+N " << num(worst, 3) << " %";
   } else {
     s << ", " << window_name(f.window) << " window, segment " << f.segment << " (resolution "
       << num(f.resolution_hz(), 4) << " Hz), overlap " << num(f.overlap * 100, 3) << " %, " << f.averages
@@ -403,8 +452,16 @@ std::string summary(const Frf& f) {
       << " Hz; ";
   else
     s << "no line with coherence >= " << gc << "; ";
-  s << below << " lines at or below the " << num(f.confidence * 100, 3) << " % zero-coherence bound "
-    << num(f.coherence_bound, 3) << " (flagged unreliable)";
+  if (f.estimator == Estimator::stepped)
+    s << below << " points with rel_err above the limit (flagged unreliable)";
+  else
+    s << below << " lines at or below the " << num(f.confidence * 100, 3) << " % zero-coherence bound "
+      << num(f.coherence_bound, 3) << " (flagged unreliable)";
+  if (!f.excitation.empty()) s << "\n  excitation: " << f.excitation;
+  if (f.nonexcited_lines > 0)
+    s << "\n  output at " << f.nonexcited_lines << " non-excited lines: " << num(f.nonexcited_db, 3)
+      << " dB re the excited lines"
+      << (std::isfinite(f.nonexcited_noise_db) ? " (noise " + num(f.nonexcited_noise_db, 3) + " dB)" : std::string());
   return s.str();
 }
 

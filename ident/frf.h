@@ -27,6 +27,7 @@
 #include <complex>
 #include <cstddef>
 #include <cstdint>
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -35,7 +36,7 @@
 
 namespace benchid::ident {
 
-enum class Estimator { h1, h2, hv, indirect, periodic };
+enum class Estimator { h1, h2, hv, indirect, periodic, stepped };
 Estimator parse_estimator(const std::string& name);  // h1 | h2 | hv
 const char* estimator_name(Estimator e);
 
@@ -45,6 +46,9 @@ struct FrfOptions {
   Estimator estimator = Estimator::h1;  // h1, h2 or hv; a reference channel selects indirect
   std::size_t period = 0;       // > 0: periodic mode with this many samples per period
   std::size_t periods = 0;      // > 0: periodic mode, the record holds this many periods
+  std::size_t skip_periods = 0; // periodic mode: leading periods left out (transient)
+  std::vector<std::size_t> lines;  // periodic mode: the excited DFT lines of a period (from an
+                                   // excitation sidecar); empty: lines with input are detected
   double band_lo_hz = 0;        // lines below are left out
   double band_hi_hz = 0;        // lines above are left out; 0 = up to Nyquist
   double confidence = 0.95;     // level of the zero-coherence bound, in [0.5, 0.9999]
@@ -78,6 +82,16 @@ struct Frf {
   std::vector<double> guu, gyy;    // one-sided density, unit^2/Hz
   std::vector<std::complex<double>> guy;
   std::vector<std::uint8_t> reliable;  // 1: coherence above the zero-coherence bound
+  std::vector<double> distortion_pct;  // stepped sine: output THD+N per point, % (else empty)
+
+  // Nonlinearity hint from the lines a periodic excitation leaves out (NaN
+  // when not measured): output power at the non-excited lines within the
+  // band, and its noise level (period-to-period), both in dB relative to the
+  // mean output power at the excited lines.
+  double nonexcited_db = std::numeric_limits<double>::quiet_NaN();
+  double nonexcited_noise_db = std::numeric_limits<double>::quiet_NaN();
+  std::size_t nonexcited_lines = 0;
+  std::string excitation;              // description of the excitation, when known
 
   std::vector<std::string> warnings;   // e.g. resolution bias at a resonance
 

@@ -40,8 +40,20 @@ void write_frf_csv(std::ostream& out, const Frf& f) {
   out << "# output=" << label(f.output, f.output_unit) << "\n";
   if (!f.reference.empty()) out << "# reference=" << f.reference << "\n";
   if (f.loop_gain) out << "# quantity=loop_gain\n";
+  if (!f.excitation.empty()) out << "# excitation=" << f.excitation << "\n";
+  if (f.nonexcited_lines > 0) {
+    out << "# nonexcited_lines=" << f.nonexcited_lines << "\n";
+    std::snprintf(b, sizeof b, "# nonexcited_db=%.4g\n", f.nonexcited_db);
+    out << b;
+    if (std::isfinite(f.nonexcited_noise_db)) {
+      std::snprintf(b, sizeof b, "# nonexcited_noise_db=%.4g\n", f.nonexcited_noise_db);
+      out << b;
+    }
+  }
+  for (const auto& w : f.warnings) out << "# warning=" << w << "\n";
   out << "# source=" << f.source << "\n";
-  out << "freq_hz,re,im,mag_db,phase_deg,coherence,rel_err,reliable\n";
+  const bool dist = f.distortion_pct.size() == f.size();
+  out << "freq_hz,re,im,mag_db,phase_deg,coherence,rel_err,reliable" << (dist ? ",distortion_pct" : "") << "\n";
   const auto mag = f.mag_db();
   const auto ph = f.phase_deg();
   for (std::size_t i = 0; i < f.size(); ++i) {
@@ -57,7 +69,15 @@ void write_frf_csv(std::ostream& out, const Frf& f) {
       n = std::snprintf(b, sizeof b, "%.6g", f.rel_err[i]);
       out.write(b, n);
     }
-    out << ',' << (f.reliable[i] ? '1' : '0') << '\n';
+    out << ',' << (f.reliable[i] ? '1' : '0');
+    if (dist) {
+      out << ',';
+      if (std::isfinite(f.distortion_pct[i])) {
+        n = std::snprintf(b, sizeof b, "%.4g", f.distortion_pct[i]);
+        out.write(b, n);
+      }
+    }
+    out << '\n';
   }
 }
 
@@ -95,7 +115,7 @@ Frf read_frf_csv(const std::string& path) {
     return -1;
   };
   const int cf = col("freq_hz"), cre = col("re"), cim = col("im"), cm = col("mag_db"), cp = col("phase_deg"),
-            cc = col("coherence"), ce = col("rel_err"), cr = col("reliable");
+            cc = col("coherence"), ce = col("rel_err"), cr = col("reliable"), cd = col("distortion_pct");
   if (cf < 0 || !((cre >= 0 && cim >= 0) || (cm >= 0 && cp >= 0)))
     throw InputError(where(path, ln) + "header lacks freq_hz and re,im (or mag_db,phase_deg); expected " +
                      "freq_hz,re,im,mag_db,phase_deg,coherence,rel_err");
@@ -117,7 +137,7 @@ Frf read_frf_csv(const std::string& path) {
   if (meta.count("estimator")) {
     const std::string e = meta["estimator"];
     f.estimator = e == "h2" ? Estimator::h2 : e == "hv" ? Estimator::hv : e == "indirect" ? Estimator::indirect
-                : e == "periodic" ? Estimator::periodic : Estimator::h1;
+                : e == "periodic" ? Estimator::periodic : e == "stepped" ? Estimator::stepped : Estimator::h1;
   }
   auto split_label = [](const std::string& s, std::string& name, std::string& unit) {
     const auto o = s.rfind(" [");
@@ -132,6 +152,10 @@ Frf read_frf_csv(const std::string& path) {
   split_label(meta["output"], f.output, f.output_unit);
   f.reference = meta["reference"];
   f.loop_gain = meta["quantity"] == "loop_gain";
+  f.excitation = meta["excitation"];
+  f.nonexcited_lines = static_cast<std::size_t>(getd("nonexcited_lines", 0));
+  f.nonexcited_db = getd("nonexcited_db", nan);
+  f.nonexcited_noise_db = getd("nonexcited_noise_db", nan);
 
   std::vector<double> v;
   while (std::getline(in, line)) {
@@ -179,6 +203,7 @@ Frf read_frf_csv(const std::string& path) {
     f.coherence.push_back(cc >= 0 ? v[static_cast<std::size_t>(cc)] : nan);
     f.rel_err.push_back(ce >= 0 ? v[static_cast<std::size_t>(ce)] : nan);
     f.reliable.push_back(cr >= 0 ? v[static_cast<std::size_t>(cr)] == 1.0 : 1);
+    if (cd >= 0) f.distortion_pct.push_back(v[static_cast<std::size_t>(cd)]);
   }
   if (f.freq_hz.empty()) throw InputError(where(path, ln) + "no data rows; expected one row per frequency line");
   return f;

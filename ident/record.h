@@ -38,6 +38,8 @@ struct ReadOptions {
   double rate_hz = 0;           // > 0: use this rate and ignore any time column; 0: from the file
   double jitter_tolerance = 0.01;  // allowed deviation of one time step, as a fraction of the
                                    // nominal step (plus the printed resolution of the time values)
+  double fallback_rate_hz = 0;  // > 0: the rate of a CSV log with neither time column nor rate comment
+                                // (e.g. from the excitation's sidecar)
 };
 
 class RecordReader {

@@ -184,8 +184,8 @@ struct PeriodicAccumulator::Fft {
   fftw_plan plan;
 };
 
-PeriodicAccumulator::PeriodicAccumulator(std::size_t period, std::size_t channels)
-    : period_(period), channels_(channels) {
+PeriodicAccumulator::PeriodicAccumulator(std::size_t period, std::size_t channels, std::size_t skip)
+    : period_(period), channels_(channels), skip_(skip) {
   if (period < 2) throw InputError("period = " + std::to_string(period) + ": must be at least 2 samples");
   pending_.resize(channels);
   const std::size_t bins = period / 2 + 1;
@@ -203,6 +203,11 @@ void PeriodicAccumulator::push(const std::vector<std::vector<double>>& block) {
   std::size_t offset = 0;
   std::vector<std::vector<std::complex<double>>> x(channels_, std::vector<std::complex<double>>(bins));
   while (offset + period_ <= pending_[0].size()) {
+    if (skip_ > 0) {
+      --skip_;
+      offset += period_;
+      continue;
+    }
     for (std::size_t c = 0; c < channels_; ++c) {
       std::memcpy(fft_->in, pending_[c].data() + offset, period_ * sizeof(double));
       fftw_execute(fft_->plan);

@@ -98,7 +98,8 @@ struct PeriodicSpectra {
 
 class PeriodicAccumulator {
  public:
-  PeriodicAccumulator(std::size_t period, std::size_t channels);
+  // skip: whole periods at the start left out (the transient before steady state)
+  PeriodicAccumulator(std::size_t period, std::size_t channels, std::size_t skip = 0);
   ~PeriodicAccumulator();
   PeriodicAccumulator(const PeriodicAccumulator&) = delete;
   PeriodicAccumulator& operator=(const PeriodicAccumulator&) = delete;
@@ -113,6 +114,7 @@ class PeriodicAccumulator {
   std::vector<std::vector<std::complex<double>>> sum_, sum_prod_;
   std::unique_ptr<Fft> fft_;
   std::size_t periods_ = 0;
+  std::size_t skip_ = 0;
 };
 
 }  // namespace benchid::ident

@@ -2,7 +2,7 @@
 # Installs benchid's build and test dependencies from Debian's packages,
 # only those missing (dpkg -s), so a machine that has them is left alone.
 set -euo pipefail
-pkgs=(g++ make cmake pkg-config libeigen3-dev libfftw3-dev libsndfile1-dev libcli11-dev libgtest-dev)
+pkgs=(g++ make cmake pkg-config libeigen3-dev libfftw3-dev libsndfile1-dev libcli11-dev libgtest-dev nlohmann-json3-dev)
 missing=()
 for p in "${pkgs[@]}"; do
   dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")

@@ -1,0 +1,200 @@
+// benchid excite KIND [options] -o FILE: make the excitation a bench will
+// play, and a sidecar JSON that tells `benchid frf --excitation` how.
+#include <charconv>
+#include <cmath>
+#include <iostream>
+#include <memory>
+
+#include "cli/commands.h"
+#include "cli/output.h"
+#include "ident/error.h"
+#include "ident/excite.h"
+#include "ident/excite_io.h"
+
+namespace benchid::cli {
+
+namespace {
+
+struct Common {
+  std::string out, sidecar, name = "excitation", unit, sample_format = "pcm24";
+  double headroom_db = ident::SignalWriteOptions{}.headroom_db;
+  bool quiet = false;
+};
+
+std::string default_sidecar(const std::string& out) {
+  const auto slash = out.rfind('/');
+  const auto dot = out.rfind('.');
+  const std::string stem = dot != std::string::npos && (slash == std::string::npos || dot > slash) ? out.substr(0, dot) : out;
+  return stem + ".excite.json";
+}
+
+void emit(const ident::Excitation& e, const Common& c, const ident::SweepOptions* sweep, bool signal_optional) {
+  if (c.out.empty() && !signal_optional) throw InputError("no output file; expected -o FILE (.csv, .wav, .flac, .aiff)");
+  if (c.out.empty() && c.sidecar.empty()) throw InputError("nothing to write; expected -o FILE and/or --plan FILE");
+  if (!(c.headroom_db >= 0 && c.headroom_db <= 60))
+    throw InputError("--headroom " + fmt_num(c.headroom_db) + " dB: expected 0 to 60 dB");
+  const std::string side = !c.sidecar.empty() ? c.sidecar : default_sidecar(c.out);
+  if (side == c.out) throw InputError("the sidecar '" + side + "' would overwrite the signal; expected another path");
+  ident::SignalWriteOptions wo;
+  wo.channel_name = c.name;
+  wo.unit = c.unit;
+  wo.headroom_db = c.headroom_db;
+  wo.sample_format = ident::parse_sample_format(c.sample_format);
+  std::unique_ptr<PendingFile> sig;
+  if (!c.out.empty()) {
+    sig = std::make_unique<PendingFile>(c.out);
+    ident::write_signal(sig->temp_path(), c.out, e, wo);
+  }
+  const std::string signal_name = c.out.empty() ? "" : c.out.substr(c.out.rfind('/') == std::string::npos ? 0 : c.out.rfind('/') + 1);
+  write_file_atomically(side, ident::sidecar_json(e, signal_name, sweep));
+  if (sig) sig->commit();
+  if (!c.quiet) {
+    std::cerr << "benchid excite: " << e.description << "\n  " << e.samples.size() << " samples at "
+              << fmt_num(e.rate_hz) << " Hz (" << fmt_num(static_cast<double>(e.samples.size()) / e.rate_hz)
+              << " s); peak " << fmt_num(e.amplitude) << ", rms " << fmt_num(e.rms) << ", crest factor "
+              << fmt_num(e.crest_factor) << "\n";
+    if (!c.out.empty()) std::cerr << "  wrote " << c.out << "\n";
+    std::cerr << "  wrote " << side << (e.kind == "steps" ? " (the plan for frf --stepped)" : " (for frf --excitation)") << "\n";
+    std::cerr << "  caution: excitation of running machinery can damage it or hurt people; start at a low level, "
+                 "keep a way to stop, and follow the machine's safety rules\n";
+  }
+}
+
+void add_common(CLI::App* s, Common& c, double& rate, double& amplitude, double& offset, bool plan = false) {
+  s->add_option("-o,--out", c.out, plan ? "Also write the time signal: .csv (time + channel), .wav, .flac, .aiff or .ogg"
+                                        : "Signal file: .csv (time + channel), .wav, .flac, .aiff or .ogg (by extension)");
+  s->add_option(plan ? "--plan,--sidecar" : "--sidecar", c.sidecar,
+                plan ? "Plan JSON for frf --stepped (default: beside -o as NAME.excite.json)"
+                     : "Sidecar JSON for frf --excitation (default: beside -o as NAME.excite.json)");
+  s->add_option("--rate", rate, "Sample rate in Hz (default 48000)");
+  s->add_option("--amplitude", amplitude, "Peak level in the output's unit; sound files: full scale = 1 (default 0.5)");
+  s->add_option("--offset", offset, "Constant added to the signal, same unit (default 0)");
+  s->add_option("--headroom", c.headroom_db, "Sound files: the peak must stay this many dB below full scale, "
+                "or benchid refuses rather than clip (default 1 dB)");
+  s->add_option("--sample-format", c.sample_format, "Sound files: pcm16, pcm24 or float (default pcm24; FLAC: pcm16/pcm24)");
+  s->add_option("--name", c.name, "CSV column name (default excitation)");
+  s->add_option("--unit", c.unit, "CSV column unit, e.g. V (default none)");
+  s->add_flag("-q,--quiet", c.quiet, "No summary on stderr");
+}
+
+double parse_num(const std::string& s, const std::string& what) {
+  double v = 0;
+  auto r = std::from_chars(s.data(), s.data() + s.size(), v);
+  if (r.ec != std::errc() || r.ptr != s.data() + s.size() || !std::isfinite(v))
+    throw InputError(what + " '" + s + "' is not a number");
+  return v;
+}
+
+}  // namespace
+
+void add_excite_command(CLI::App& app) {
+  CLI::App* ex = app.add_subcommand("excite", "Make an excitation signal to play into the machine, and a sidecar JSON "
+                                              "that later tells 'benchid frf --excitation' how to analyse the record.");
+  ex->require_subcommand(1);
+
+  for (const bool log : {false, true}) {
+    auto o = std::make_shared<ident::SweepOptions>();
+    auto c = std::make_shared<Common>();
+    o->logarithmic = log;
+    o->repeats = 1;
+    CLI::App* s = ex->add_subcommand(
+        log ? "logchirp" : "chirp",
+        log ? "Exponential sine sweep (Farina): equal time per octave, pink spectrum; the deconvolved record "
+              "separates harmonic distortion from the linear response. Good for a first look and for nonlinear "
+              "plants."
+            : "Linear sine sweep: flat spectrum over the band, simple to reason about; averaging repeated sweeps "
+              "gives the error. Good for narrow bands and resonance hunting.");
+    add_common(s, *c, o->rate_hz, o->amplitude, o->offset);
+    s->add_option("--f0", o->f0_hz, "Start frequency, Hz (default 10)");
+    s->add_option("--f1", o->f1_hz, "Stop frequency, Hz, below Nyquist (default 1000)");
+    s->add_option("--duration", o->duration_s, "Length of one sweep, s (default 10)");
+    s->add_option("--fade", o->fade_s, "Raised-cosine fade-in and fade-out, s (default 0)");
+    s->add_option("--phase", o->phase_deg, "Phase of the cosine at t = 0, deg (default -90: starts at zero as a sine)");
+    s->add_option("--repeat", o->repeats, "Sweeps back to back; 2 or more make the record periodic so the sweeps "
+                  "can be averaged with an error bar (default 1)");
+    s->callback([o, c] { emit(ident::make_sweep(*o), *c, o.get(), false); });
+  }
+
+  {
+    auto o = std::make_shared<ident::MultisineOptions>();
+    auto c = std::make_shared<Common>();
+    auto phases = std::make_shared<std::string>("schroeder");
+    auto spacing = std::make_shared<std::string>("log");
+    CLI::App* s = ex->add_subcommand(
+        "multisine", "Periodic sum of sines on the FFT grid: leakage-free when whole periods are analysed, "
+                     "controlled spectrum, error bar from period-to-period variation, and non-excited lines that "
+                     "reveal nonlinear distortion. Best for linear plants.");
+    add_common(s, *c, o->rate_hz, o->amplitude, o->offset);
+    s->add_option("--f0", o->f0_hz, "Lowest excited frequency, Hz (default 10)");
+    s->add_option("--f1", o->f1_hz, "Highest excited frequency, Hz (default 1000)");
+    s->add_option("--resolution", o->resolution_hz, "Line spacing, Hz; rate/resolution must be a whole number of "
+                  "samples (default 1)");
+    s->add_option("--period", o->period, "Samples per period, instead of --resolution");
+    s->add_option("--spacing", *spacing, "lin or log line spacing (default log)");
+    s->add_option("--lines-per-decade", o->lines_per_decade, "Log spacing: lines per decade (default 30)");
+    s->add_option("--every", o->every, "Lin spacing: every k-th grid line (default 1)");
+    s->add_option("--phases", *phases, "schroeder (low crest factor, deterministic) or random (default schroeder)");
+    s->add_option("--seed", o->seed, "Random phases: seed (default 1)");
+    s->add_option("--crest-iterations", o->crest_iterations, "Passes of iterative clipping to lower the crest "
+                  "factor (default 0: none)");
+    s->add_option("--repeat", o->repeats, "Periods written; the first is usually skipped as transient (default 4)");
+    s->callback([o, c, phases, spacing] {
+      o->phases = ident::parse_phases(*phases);
+      o->spacing = ident::parse_spacing(*spacing);
+      emit(ident::make_multisine(*o), *c, nullptr, false);
+    });
+  }
+
+  {
+    auto o = std::make_shared<ident::PrbsOptions>();
+    auto c = std::make_shared<Common>();
+    CLI::App* s = ex->add_subcommand(
+        "prbs", "Maximum-length binary sequence: crest factor 1 (the most power for a given peak), flat spectrum "
+                "up to about 0.44 x the clock; good for drives with a hard current or voltage limit.");
+    add_common(s, *c, o->rate_hz, o->amplitude, o->offset);
+    s->add_option("--order", o->order, "Register length n: the sequence has 2^n - 1 bits (2..24, default 12)");
+    s->add_option("--divider", o->divider, "Samples per bit: clock = rate/divider places the band (default 1)");
+    s->add_option("--repeat", o->repeats, "Periods written (default 4)");
+    s->callback([o, c] { emit(ident::make_prbs(*o), *c, nullptr, false); });
+  }
+
+  {
+    auto o = std::make_shared<ident::StepsOptions>();
+    auto c = std::make_shared<Common>();
+    auto spacing = std::make_shared<std::string>("log");
+    auto profile = std::make_shared<std::string>();
+    CLI::App* s = ex->add_subcommand(
+        "steps", "Stepped-sine plan: one frequency at a time, the best signal-to-noise per point and a distortion "
+                 "figure per step; slow, but the reference for nonlinear or noisy plants. Writes the plan JSON for "
+                 "frf --stepped, and the signal with -o.");
+    add_common(s, *c, o->rate_hz, o->amplitude, o->offset, true);
+    s->add_option("--f0", o->f0_hz, "First step frequency, Hz (default 10)");
+    s->add_option("--f1", o->f1_hz, "Last step frequency, Hz (default 1000)");
+    s->add_option("--count", o->count, "Number of steps (default 20)");
+    s->add_option("--spacing", *spacing, "lin or log (default log)");
+    s->add_option("--settle-cycles", o->settle_cycles, "Cycles before measuring, the first a fade-in (default 10)");
+    s->add_option("--measure-cycles", o->measure_cycles, "Cycles measured per step (default 20)");
+    s->add_option("--min-settle", o->min_settle_s, "At least this settling time per step, s (default 0)");
+    s->add_option("--profile", *profile, "Amplitude per frequency as F:A,F:A,... (Hz:peak), interpolated log-log; "
+                  "replaces --amplitude");
+    s->callback([o, c, spacing, profile] {
+      o->spacing = ident::parse_spacing(*spacing);
+      if (!profile->empty()) {
+        std::size_t p = 0;
+        while (p <= profile->size()) {
+          std::size_t q = profile->find(',', p);
+          if (q == std::string::npos) q = profile->size();
+          const std::string item = profile->substr(p, q - p);
+          const auto colon = item.find(':');
+          if (colon == std::string::npos) throw InputError("--profile item '" + item + "': expected FREQ_HZ:AMPLITUDE");
+          o->profile.emplace_back(parse_num(item.substr(0, colon), "--profile frequency"),
+                                  parse_num(item.substr(colon + 1), "--profile amplitude"));
+          p = q + 1;
+        }
+      }
+      emit(ident::make_steps(*o), *c, nullptr, true);
+    });
+  }
+}
+
+}  // namespace benchid::cli
