@@ -86,6 +86,34 @@ TEST(SoundReader, RefusesTruncatedFile) {
   }
 }
 
+TEST(SoundReader, ReadsOddLengthDataChunkAndRefusesTruncatedFlac) {
+  // a mono 24-bit WAV of an odd number of frames has an odd-length data chunk,
+  // which libsndfile notes in its log; it is a complete file
+  TempDir d;
+  SF_INFO info{};
+  info.samplerate = 1000;
+  info.channels = 1;
+  info.format = SF_FORMAT_WAV | SF_FORMAT_PCM_24;
+  SNDFILE* f = sf_open(d.file("odd.wav").c_str(), SFM_WRITE, &info);
+  std::vector<double> x(1001, 0.25);
+  sf_writef_double(f, x.data(), 1001);
+  sf_close(f);
+  EXPECT_EQ(read_record(d.file("odd.wav")).samples[0].size(), 1001u);
+  info.format = SF_FORMAT_FLAC | SF_FORMAT_PCM_16;
+  std::vector<double> y(20000);
+  for (std::size_t i = 0; i < y.size(); ++i) y[i] = 0.5 * std::sin(0.37 * static_cast<double>(i * i % 1000));
+  f = sf_open(d.file("cut.flac").c_str(), SFM_WRITE, &info);
+  sf_writef_double(f, y.data(), 20000);
+  sf_close(f);
+  std::filesystem::resize_file(d.file("cut.flac"), std::filesystem::file_size(d.file("cut.flac")) / 2);
+  try {
+    read_record(d.file("cut.flac"));
+    FAIL() << "no error";
+  } catch (const benchid::InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("truncated"), std::string::npos) << e.what();
+  }
+}
+
 TEST(SoundReader, RefusesFileWithLyingHeader) {
   TempDir d;
   const auto p = d.write("e.wav", std::string("RIFF\x24\x00\x00\x00WAVEjunkjunkjunk", 24));

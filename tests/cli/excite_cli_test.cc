@@ -1,0 +1,137 @@
+// `benchid excite` as a user runs it, and its sidecar driving `benchid frf`.
+#include <gtest/gtest.h>
+#include <sys/wait.h>
+
+#include <cmath>
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+
+#include "ident/frf_csv.h"
+#include "ident/record.h"
+#include "tests/support/signals.h"
+#include "tests/support/temp_dir.h"
+
+using benchid::test::TempDir;
+namespace fs = std::filesystem;
+
+namespace {
+
+struct Outcome {
+  int code;
+  std::string out, err;
+};
+
+std::string slurp(const std::string& p) {
+  std::ifstream in(p, std::ios::binary);
+  std::stringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+Outcome run(const TempDir& d, const std::string& args) {
+  const std::string cmd = std::string(BENCHID_EXE) + " " + args + " >" + d.file("o.txt") + " 2>" + d.file("e.txt");
+  const int st = std::system(cmd.c_str());
+  Outcome r{WIFEXITED(st) ? WEXITSTATUS(st) : 128 + WTERMSIG(st), slurp(d.file("o.txt")), slurp(d.file("e.txt"))};
+  fs::remove(d.file("o.txt"));
+  fs::remove(d.file("e.txt"));
+  return r;
+}
+
+std::size_t files_in(const TempDir& d) {
+  std::size_t n = 0;
+  for (const auto& e : fs::directory_iterator(d.path())) n += e.is_regular_file();
+  return n;
+}
+
+struct BadExcite {
+  const char* name;
+  std::string args, fragment;
+};
+void PrintTo(const BadExcite& c, std::ostream* os) { *os << c.name; }
+
+class ExciteCliBad : public ::testing::TestWithParam<BadExcite> {};
+
+TEST_P(ExciteCliBad, ExitsTwoWithOneLineAndWritesNothing) {
+  TempDir d;
+  const std::string ext = std::string(GetParam().name) == "FlacFloat" ? ".flac" : ".wav";
+  const Outcome r = run(d, "excite " + GetParam().args + " -o " + d.file("sig" + ext));
+  EXPECT_EQ(r.code, 2) << r.err;
+  EXPECT_EQ(r.err.rfind("benchid: error: ", 0), 0u) << r.err;
+  EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1) << r.err;
+  EXPECT_NE(r.err.find(GetParam().fragment), std::string::npos) << r.err;
+  EXPECT_EQ(files_in(d), 0u) << "a signal, sidecar or temporary was left behind";
+}
+
+INSTANTIATE_TEST_SUITE_P(
+    Catalogue, ExciteCliBad,
+    ::testing::Values(
+        BadExcite{"StopBelowStart", "multisine --f0 500 --f1 100", "stop frequency must be above the start"},
+        BadExcite{"BandAboveNyquist", "chirp --rate 8000 --f1 5000", "f1 = 5000 Hz: must be below Nyquist (4000 Hz)"},
+        BadExcite{"ZeroAmplitude", "prbs --amplitude 0", "amplitude = 0: must be positive"},
+        BadExcite{"NonIntegerPeriod", "multisine --rate 1000 --resolution 0.3 --f1 100",
+                  "expected a whole number of samples"},
+        BadExcite{"NoHeadroom", "prbs --amplitude 0.95", "exceeds the -1 dBFS headroom limit"},
+        BadExcite{"OffsetEatsHeadroom", "chirp --amplitude 0.5 --offset 0.5", "exceeds the -1 dBFS headroom limit"},
+        BadExcite{"FlacFloat", "chirp --sample-format float", "FLAC holds integer samples"},
+        BadExcite{"UnknownSpacing", "multisine --spacing octave", "spacing 'octave' is unknown"},
+        BadExcite{"BadProfile", "steps --profile 10:1,100", "expected FREQ_HZ:AMPLITUDE"}),
+    [](const auto& i) { return std::string(i.param.name); });
+
+TEST(ExciteCli, MultisineSidecarDrivesPeriodicFrf) {
+  // excite -> (a known filter, computed here) -> frf --excitation: periodic
+  // averaging over exactly the excited lines, first period skipped.
+  TempDir d;
+  Outcome r = run(d, "excite multisine --rate 1000 --f0 2 --f1 200 --resolution 1 --repeat 5 -o " + d.file("ms.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  ASSERT_TRUE(fs::exists(d.file("ms.excite.json")));
+  EXPECT_NE(r.err.find("caution"), std::string::npos);
+  const auto sig = benchid::ident::read_record(d.file("ms.csv"));
+  ASSERT_EQ(sig.samples[0].size(), 5000u);
+  const auto lp = benchid::test::Biquad::butterworth_lowpass(0.05);
+  const auto y = lp.filter(sig.samples[0]);
+  std::string s = "u,y\n";  // no time column: the rate comes from the sidecar
+  char b[80];
+  for (std::size_t i = 0; i < y.size(); ++i) {
+    std::snprintf(b, sizeof b, "%.17g,%.17g\n", sig.samples[0][i], y[i]);
+    s += b;
+  }
+  d.write("rec.csv", s);
+  r = run(d, "frf " + d.file("rec.csv") + " --input u --output y --excitation " + d.file("ms.excite.json") + " -o " +
+                 d.file("frf.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  const auto f = benchid::ident::read_frf_csv(d.file("frf.csv"));
+  EXPECT_EQ(f.estimator, benchid::ident::Estimator::periodic);
+  EXPECT_EQ(f.averages, 4u);  // 5 periods, the first skipped
+  EXPECT_NE(f.excitation.find("multisine"), std::string::npos);
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    const auto h = lp.response(f.freq_hz[i] / 1000.0);
+    // the filter settles in far less than a period (e^{-zeta w 1000} ~ 1e-100);
+    // the CSV prints 12 significant digits
+    EXPECT_LT(std::abs(f.h[i] - h) / std::abs(h), 1e-9) << f.freq_hz[i];
+  }
+}
+
+TEST(ExciteCli, StepsPlanDrivesSteppedFrfAndBadPlansAreRefused) {
+  TempDir d;
+  Outcome r = run(d, "excite steps --rate 1000 --f0 5 --f1 100 --count 6 --plan " + d.file("plan.json") + " -o " +
+                         d.file("steps.wav"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  // a chirp's sidecar is not a plan
+  r = run(d, "excite chirp --rate 1000 --f1 100 --duration 2 -o " + d.file("c.wav"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  r = run(d, "frf " + d.file("steps.wav") + " --input 1 --output 1 --stepped " + d.file("c.excite.json"));
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("is not a stepped-sine plan"), std::string::npos) << r.err;
+  // broken JSON names its line
+  d.write("bad.json", "{\n  \"format\": \"benchid.excitation/1\",\n  \"kind\": steps\n}\n");
+  r = run(d, "frf " + d.file("steps.wav") + " --input 1 --output 1 --stepped " + d.file("bad.json"));
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("bad.json:3: not valid JSON"), std::string::npos) << r.err;
+  // the plan of a one-channel signal: input = output gives the same-channel refusal
+  r = run(d, "frf " + d.file("steps.wav") + " --input 1 --output 1 --stepped " + d.file("plan.json"));
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("same channel"), std::string::npos) << r.err;
+}
+
+}  // namespace
