@@ -128,6 +128,7 @@ void run_frf(const FrfArgs& a) {
       if (a.periods || a.period) throw InputError("--periods/--period come from --excitation; give one or the other");
       o.period = e.period;
       if (e.kind == "multisine" || e.kind == "prbs") o.lines = e.lines;
+      if (e.kind == "logchirp" && side->has_sweep && side->sweep.f1_hz > side->sweep.f0_hz) o.log_sweep = side->sweep;
       if (a.band.empty() && e.band_hi_hz > 0) {
         o.band_lo_hz = e.band_lo_hz * (1 - 1e-9);
         o.band_hi_hz = e.band_hi_hz * (1 + 1e-9);

@@ -104,6 +104,7 @@ std::string sidecar_json(const Excitation& e, const std::string& signal_file, co
     j["sweep"] = {{"f0_hz", sweep->f0_hz},
                   {"f1_hz", sweep->f1_hz},
                   {"duration_s", sweep->duration_s},
+                  {"fade_s", sweep->fade_s},
                   {"law", sweep->logarithmic ? "exponential" : "linear"}};
   }
   if (!e.steps.empty()) {
@@ -197,6 +198,9 @@ Sidecar read_sidecar(const std::string& path) {
     s.sweep.f0_hz = num(w, "f0_hz", path);
     s.sweep.f1_hz = num(w, "f1_hz", path);
     s.sweep.duration_s = num(w, "duration_s", path);
+    s.sweep.fade_s = num(w, "fade_s", path, false, 0.0);
+    if (!(s.sweep.f0_hz > 0 && s.sweep.f1_hz > 0 && s.sweep.duration_s > 0 && s.sweep.fade_s >= 0))
+      bad(path, "sweep needs positive f0_hz, f1_hz and duration_s, and fade_s >= 0");
     s.sweep.logarithmic = w.contains("law") && w["law"] == "exponential";
   }
   if (e.kind == "steps") {

@@ -8,7 +8,7 @@
 //   amplitude, offset, crest_factor, rms, description, signal_file, and for a
 //   stepped sine "steps": [{freq_hz, amplitude, start_sample,
 //   measure_start_sample, measure_samples, end_sample}], plus for sweeps
-//   "sweep": {f0_hz, f1_hz, duration_s, law: "linear"|"exponential"}.
+//   "sweep": {f0_hz, f1_hz, duration_s, fade_s, law: "linear"|"exponential"}.
 // A stepped-sine plan is this file with kind "steps".
 #pragma once
 

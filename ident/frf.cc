@@ -155,7 +155,9 @@ void finish_common(Frf& f) {
   if (f.effective_averages <= 1)
     f.warnings.push_back("only one average: coherence is 1 by construction and the error is "
                          "unknown; use a shorter segment or more periods");
-  check_resolution_bias(f);
+  // Window smearing flattens peaks in Welch estimates only: synchronous
+  // averaging of whole periods reads each line without leakage.
+  if (f.estimator != Estimator::periodic) check_resolution_bias(f);
 }
 
 }  // namespace
@@ -357,7 +359,15 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   std::size_t samples = 0;
   if (periodic) {
     PeriodicAccumulator acc(period, 2, o.skip_periods);
+    // for harmonic distortion: the first period that is averaged
+    std::vector<double> hu, hy;
+    const std::size_t h_from = o.skip_periods * period, h_to = h_from + period;
     while (reader.read_block(o.block_frames, block) > 0) {
+      if (o.log_sweep && samples < h_to && samples + block[0].size() > h_from) {
+        const std::size_t a = std::max(h_from, samples) - samples, b = std::min(h_to, samples + block[0].size()) - samples;
+        hu.insert(hu.end(), block[0].begin() + static_cast<long>(a), block[0].begin() + static_cast<long>(b));
+        hy.insert(hy.end(), block[1].begin() + static_cast<long>(a), block[1].begin() + static_cast<long>(b));
+      }
       samples += block[0].size();
       acc.push(block);
     }
@@ -368,6 +378,19 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
     const double rate = reader.rate_hz();
     const PeriodicSpectra ps = acc.finish(rate);
     f = frf_from_periodic(ps, 0, 1, o);
+    if (o.log_sweep && hu.size() == period) {
+      // a single sweep starts from rest; repeated ones are periodic
+      f.harmonics = sweep_harmonics(hu, hy, rate, *o.log_sweep, ps.periods > 1 || o.skip_periods > 0);
+      for (std::size_t i = 0; i < f.harmonics->overall_db.size(); ++i) {
+        const double db = f.harmonics->overall_db[i];
+        if (db > -40.0) {  // 1 %: common practice for "not linear at this level"
+          f.warnings.push_back("harmonic " + std::to_string(i + 2) + " stands at " + num(db, 3) +
+                               " dB of the fundamental (log-sweep deconvolution): the plant is not linear at this "
+                               "level; the FRF describes the fundamental only");
+          break;
+        }
+      }
+    }
     if (samples % period != 0)
       f.warnings.push_back(std::to_string(samples % period) + " trailing samples (less than one period) left out");
   } else {
@@ -458,6 +481,11 @@ std::string summary(const Frf& f) {
     s << below << " lines at or below the " << num(f.confidence * 100, 3) << " % zero-coherence bound "
       << num(f.coherence_bound, 3) << " (flagged unreliable)";
   if (!f.excitation.empty()) s << "\n  excitation: " << f.excitation;
+  if (f.harmonics && !f.harmonics->overall_db.empty()) {
+    s << "\n  harmonic distortion (log-sweep deconvolution):";
+    for (std::size_t i = 0; i < f.harmonics->overall_db.size(); ++i)
+      s << (i ? ", " : " ") << "H" << i + 2 << " " << num(f.harmonics->overall_db[i], 3) << " dB";
+  }
   if (f.nonexcited_lines > 0)
     s << "\n  output at " << f.nonexcited_lines << " non-excited lines: " << num(f.nonexcited_db, 3)
       << " dB re the excited lines"

@@ -31,7 +31,10 @@
 #include <string>
 #include <vector>
 
+#include <optional>
+
 #include "ident/record.h"
+#include "ident/sweep_distortion.h"
 #include "ident/welch.h"
 
 namespace benchid::ident {
@@ -49,6 +52,8 @@ struct FrfOptions {
   std::size_t skip_periods = 0; // periodic mode: leading periods left out (transient)
   std::vector<std::size_t> lines;  // periodic mode: the excited DFT lines of a period (from an
                                    // excitation sidecar); empty: lines with input are detected
+  std::optional<SweepOptions> log_sweep;  // periodic mode over exponential sweeps: also measure
+                                          // harmonic distortion on the first averaged period
   double band_lo_hz = 0;        // lines below are left out
   double band_hi_hz = 0;        // lines above are left out; 0 = up to Nyquist
   double confidence = 0.95;     // level of the zero-coherence bound, in [0.5, 0.9999]
@@ -92,6 +97,7 @@ struct Frf {
   double nonexcited_noise_db = std::numeric_limits<double>::quiet_NaN();
   std::size_t nonexcited_lines = 0;
   std::string excitation;              // description of the excitation, when known
+  std::optional<SweepHarmonics> harmonics;  // from an exponential-sweep record
 
   std::vector<std::string> warnings;   // e.g. resolution bias at a resonance
 

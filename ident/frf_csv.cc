@@ -50,6 +50,17 @@ void write_frf_csv(std::ostream& out, const Frf& f) {
       out << b;
     }
   }
+  if (f.harmonics) {
+    out << "# harmonic_db=";
+    for (std::size_t i = 0; i < f.harmonics->overall_db.size(); ++i)
+      out << (i ? "," : "") << "H" << i + 2 << ":" << fmt_num(f.harmonics->overall_db[i]);
+    out << "\n";
+    for (const auto& b : f.harmonics->bands) {
+      out << "# harmonic_band_db=" << fmt_num(b.f_lo_hz) << "-" << fmt_num(b.f_hi_hz) << " Hz:";
+      for (std::size_t i = 0; i < b.ratio_db.size(); ++i) out << (i ? "," : "") << fmt_num(b.ratio_db[i]);
+      out << "\n";
+    }
+  }
   for (const auto& w : f.warnings) out << "# warning=" << w << "\n";
   out << "# source=" << f.source << "\n";
   const bool dist = f.distortion_pct.size() == f.size();
@@ -156,6 +167,19 @@ Frf read_frf_csv(const std::string& path) {
   f.nonexcited_lines = static_cast<std::size_t>(getd("nonexcited_lines", 0));
   f.nonexcited_db = getd("nonexcited_db", nan);
   f.nonexcited_noise_db = getd("nonexcited_noise_db", nan);
+  if (meta.count("harmonic_db")) {  // "H2:-28,H3:-55.8"
+    SweepHarmonics hh;
+    std::stringstream hs(meta["harmonic_db"]);
+    std::string item;
+    while (std::getline(hs, item, ',')) {
+      const auto c = item.find(':');
+      double v = nan;
+      if (c != std::string::npos) std::from_chars(item.data() + c + 1, item.data() + item.size(), v);
+      hh.overall_db.push_back(v);
+    }
+    hh.max_order = static_cast<int>(hh.overall_db.size()) + 1;
+    f.harmonics = hh;
+  }
 
   std::vector<double> v;
   while (std::getline(in, line)) {
