@@ -1,12 +1,12 @@
 // benchid excite KIND [options] -o FILE: make the excitation a bench will
 // play, and a sidecar JSON that tells `benchid frf --excitation` how.
-#include <charconv>
 #include <cmath>
 #include <iostream>
 #include <memory>
 
 #include "cli/commands.h"
 #include "cli/output.h"
+#include "cli/parse.h"
 #include "ident/error.h"
 #include "ident/excite.h"
 #include "ident/excite_io.h"
@@ -77,13 +77,6 @@ void add_common(CLI::App* s, Common& c, double& rate, double& amplitude, double&
   s->add_flag("-q,--quiet", c.quiet, "No summary on stderr");
 }
 
-double parse_num(const std::string& s, const std::string& what) {
-  double v = 0;
-  auto r = std::from_chars(s.data(), s.data() + s.size(), v);
-  if (r.ec != std::errc() || r.ptr != s.data() + s.size() || !std::isfinite(v))
-    throw InputError(what + " '" + s + "' is not a number");
-  return v;
-}
 
 }  // namespace
 
@@ -180,16 +173,11 @@ void add_excite_command(CLI::App& app) {
     s->callback([o, c, spacing, profile] {
       o->spacing = ident::parse_spacing(*spacing);
       if (!profile->empty()) {
-        std::size_t p = 0;
-        while (p <= profile->size()) {
-          std::size_t q = profile->find(',', p);
-          if (q == std::string::npos) q = profile->size();
-          const std::string item = profile->substr(p, q - p);
+        for (const auto& item : split_list(*profile)) {
           const auto colon = item.find(':');
           if (colon == std::string::npos) throw InputError("--profile item '" + item + "': expected FREQ_HZ:AMPLITUDE");
-          o->profile.emplace_back(parse_num(item.substr(0, colon), "--profile frequency"),
-                                  parse_num(item.substr(colon + 1), "--profile amplitude"));
-          p = q + 1;
+          o->profile.emplace_back(parse_number(item.substr(0, colon), "--profile frequency"),
+                                  parse_number(item.substr(colon + 1), "--profile amplitude"));
         }
       }
       emit(ident::make_steps(*o), *c, nullptr, true);

@@ -1,5 +1,4 @@
 // benchid frf RECORD --input CH --output CH [--reference CH] [options] [-o FRF.csv]
-#include <charconv>
 #include <cmath>
 #include <iostream>
 #include <limits>
@@ -9,6 +8,7 @@
 
 #include "cli/commands.h"
 #include "cli/output.h"
+#include "cli/parse.h"
 #include "cli/text_report.h"
 #include "ident/error.h"
 #include "ident/frf.h"
@@ -40,13 +40,6 @@ struct FrfArgs {
   bool loop_gain = false, quiet = false;
 };
 
-double parse_double(const std::string& s, const std::string& what) {
-  double v = 0;
-  auto r = std::from_chars(s.data(), s.data() + s.size(), v);
-  if (r.ec != std::errc() || r.ptr != s.data() + s.size() || !std::isfinite(v))
-    throw InputError(what + " '" + s + "' is not a number");
-  return v;
-}
 
 void run_frf(const FrfArgs& a) {
   if (!a.excitation.empty() && !a.stepped.empty()) throw InputError("give --excitation or --stepped, not both");
@@ -75,7 +68,7 @@ void run_frf(const FrfArgs& a) {
     const auto c = s.rfind(':');
     if (c == std::string::npos || c == 0)
       throw InputError("--scale '" + s + "': expected CH:FACTOR, e.g. 2:10.5");
-    reader->set_scale(reader->channel_index(s.substr(0, c)), parse_double(s.substr(c + 1), "--scale factor"));
+    reader->set_scale(reader->channel_index(s.substr(0, c)), parse_number(s.substr(c + 1), "--scale factor"));
   }
   ident::FrfOptions o;
   if (a.segment) o.welch.segment = a.segment;
@@ -92,8 +85,8 @@ void run_frf(const FrfArgs& a) {
   if (!a.band.empty()) {
     const auto c = a.band.find(':');
     if (c == std::string::npos) throw InputError("--band '" + a.band + "': expected LO:HI in Hz, e.g. 1:500");
-    o.band_lo_hz = c == 0 ? 0 : parse_double(a.band.substr(0, c), "--band LO");
-    o.band_hi_hz = c + 1 == a.band.size() ? 0 : parse_double(a.band.substr(c + 1), "--band HI");
+    o.band_lo_hz = c == 0 ? 0 : parse_number(a.band.substr(0, c), "--band LO");
+    o.band_hi_hz = c + 1 == a.band.size() ? 0 : parse_number(a.band.substr(c + 1), "--band HI");
   }
   ident::Frf f;
   if (stepped) {
@@ -110,13 +103,7 @@ void run_frf(const FrfArgs& a) {
       plan_rate = side->excitation.rate_hz;
     } else {
       std::vector<double> freqs;
-      std::size_t p = 0;
-      while (p <= a.step_freqs.size()) {
-        std::size_t q = a.step_freqs.find(',', p);
-        if (q == std::string::npos) q = a.step_freqs.size();
-        freqs.push_back(parse_double(a.step_freqs.substr(p, q - p), "--step-freqs item"));
-        p = q + 1;
-      }
+      for (const auto& item : split_list(a.step_freqs)) freqs.push_back(parse_number(item, "--step-freqs item"));
       if (!(plan_rate > 0)) throw InputError("the rate is not known before reading; give --rate");
       steps = ident::steps_from_list(freqs, a.step_s, a.settle_s, plan_rate);
     }

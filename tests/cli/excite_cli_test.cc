@@ -1,6 +1,5 @@
 // `benchid excite` as a user runs it, and its sidecar driving `benchid frf`.
 #include <gtest/gtest.h>
-#include <sys/wait.h>
 
 #include <cmath>
 #include <filesystem>
@@ -10,33 +9,17 @@
 #include "ident/frf_csv.h"
 #include "ident/record.h"
 #include "tests/support/signals.h"
+#include "tests/support/run_cli.h"
 #include "tests/support/temp_dir.h"
 
+using benchid::test::Outcome;
+using benchid::test::slurp;
 using benchid::test::TempDir;
 namespace fs = std::filesystem;
 
 namespace {
 
-struct Outcome {
-  int code;
-  std::string out, err;
-};
-
-std::string slurp(const std::string& p) {
-  std::ifstream in(p, std::ios::binary);
-  std::stringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
-Outcome run(const TempDir& d, const std::string& args) {
-  const std::string cmd = std::string(BENCHID_EXE) + " " + args + " >" + d.file("o.txt") + " 2>" + d.file("e.txt");
-  const int st = std::system(cmd.c_str());
-  Outcome r{WIFEXITED(st) ? WEXITSTATUS(st) : 128 + WTERMSIG(st), slurp(d.file("o.txt")), slurp(d.file("e.txt"))};
-  fs::remove(d.file("o.txt"));
-  fs::remove(d.file("e.txt"));
-  return r;
-}
+Outcome run(const TempDir& d, const std::string& args) { return benchid::test::run_benchid(d, args); }
 
 std::size_t files_in(const TempDir& d) {
   std::size_t n = 0;

@@ -4,7 +4,6 @@
 // input left byte-identical (DESIGN.md, "Command line").
 #include <gtest/gtest.h>
 #include <sndfile.h>
-#include <sys/wait.h>
 
 #include <cmath>
 #include <complex>
@@ -14,36 +13,18 @@
 
 #include "ident/frf_csv.h"
 #include "tests/support/signals.h"
+#include "tests/support/run_cli.h"
 #include "tests/support/temp_dir.h"
 
 using benchid::test::Gaussian;
+using benchid::test::Outcome;
+using benchid::test::slurp;
 using benchid::test::TempDir;
 namespace fs = std::filesystem;
 
 namespace {
 
-struct Outcome {
-  int code;
-  std::string out, err;
-};
-
-std::string slurp(const std::string& p) {
-  std::ifstream in(p, std::ios::binary);
-  std::stringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
-
-Outcome run(const TempDir& d, const std::string& args) {
-  const std::string cmd = std::string(BENCHID_EXE) + " " + args + " >" + d.file("stdout.txt") + " 2>" +
-                          d.file("stderr.txt") + " </dev/null";
-  const int st = std::system(cmd.c_str());
-  Outcome r{WIFEXITED(st) ? WEXITSTATUS(st) : 128 + WTERMSIG(st), slurp(d.file("stdout.txt")),
-        slurp(d.file("stderr.txt"))};
-  fs::remove(d.file("stdout.txt"));
-  fs::remove(d.file("stderr.txt"));
-  return r;
-}
+Outcome run(const TempDir& d, const std::string& args) { return benchid::test::run_benchid(d, args); }
 
 // A valid log: white noise through a low-pass, with output noise, 2 kHz.
 std::string good_log(std::size_t n = 20000) {
