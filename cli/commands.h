@@ -10,5 +10,6 @@ namespace benchid::cli {
 // command_line: the invocation as typed, quoted in reports.
 void add_frf_command(CLI::App& app, const std::string& command_line);
 void add_excite_command(CLI::App& app);
+void add_fit_command(CLI::App& app);
 
 }  // namespace benchid::cli

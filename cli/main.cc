@@ -22,6 +22,7 @@ int main(int argc, char** argv) {
   for (int i = 1; i < argc; ++i) (command_line += ' ') += argv[i];
   benchid::cli::add_excite_command(app);
   benchid::cli::add_frf_command(app, command_line);
+  benchid::cli::add_fit_command(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

@@ -1,0 +1,126 @@
+// benchid fit FRF.csv [--order N|auto] [--delay auto|SECONDS] [--band LO:HI] [-o MODEL.json]
+#include <cmath>
+#include <cstdlib>
+#include <iostream>
+#include <stdexcept>
+#include <memory>
+
+#include "cli/commands.h"
+#include "cli/output.h"
+#include "cli/parse.h"
+#include "fit/fit_frf.h"
+#include "fit/model_json.h"
+#include "ident/error.h"
+#include "ident/frf_csv.h"
+
+namespace benchid::cli {
+
+namespace {
+
+struct FitArgs {
+  std::string frf, out, order = "auto", delay = "0", band, weighting = "variance";
+  int max_order = fit::FitOptions{}.max_order;
+  int integrators = 0;
+  int max_iterations = fit::VectorFitOptions{}.max_iterations;
+  bool strictly_proper = false, improper = false, allow_unstable = false, json = false, quiet = false;
+};
+
+// The analysis could not produce a result: exit status 1.
+struct NoResult : std::runtime_error {
+  using std::runtime_error::runtime_error;
+};
+
+void run_fit(const FitArgs& a) {
+  refuse_overwriting_input(a.out, {a.frf});
+  const ident::Frf frf = ident::read_frf_csv(a.frf);
+  fit::FitOptions o;
+  o.weighting = fit::parse_weighting(a.weighting);
+  o.vf.integrators = a.integrators;
+  o.vf.proper = !a.strictly_proper;
+  o.vf.improper = a.improper;
+  o.vf.allow_unstable = a.allow_unstable;
+  o.vf.max_iterations = a.max_iterations;
+  o.max_order = a.max_order;
+  if (a.order == "auto") {
+    o.auto_order = true;
+  } else {
+    const double n = parse_number(a.order, "--order");
+    if (n != std::floor(n) || n < 1 || n > 200) throw InputError("--order " + a.order + ": expected a whole number 1..200 or auto");
+    o.vf.order = static_cast<int>(n);
+  }
+  if (a.delay == "auto") {
+    o.auto_delay = true;
+  } else {
+    o.vf.delay_s = parse_number(a.delay, "--delay");
+  }
+  if (!a.band.empty()) {
+    const auto c = a.band.find(':');
+    if (c == std::string::npos) throw InputError("--band '" + a.band + "': expected LO:HI in Hz");
+    o.band_lo_hz = c == 0 ? 0 : parse_number(a.band.substr(0, c), "--band LO");
+    o.band_hi_hz = c + 1 == a.band.size() ? 0 : parse_number(a.band.substr(c + 1), "--band HI");
+    if (o.band_hi_hz > 0 && o.band_hi_hz <= o.band_lo_hz) throw InputError("--band " + a.band + ": LO must be below HI");
+  }
+  const fit::FrfFit f = fit::fit_frf(frf, o);
+  const std::string summary = fit::fit_summary(f, a.frf);
+  (a.json ? std::cerr : std::cout) << (a.quiet ? std::string() : summary + "\n");
+  if (!f.result.converged)
+    throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
+                   " iterations; try a lower --order, a narrower --band or --weighting relative");
+  fit::FitSummary fs;
+  fs.order = static_cast<int>(f.result.model.order());
+  fs.band_lo_hz = f.data.freq_hz.front();
+  fs.band_hi_hz = f.data.freq_hz.back();
+  fs.points = f.data.freq_hz.size();
+  fs.left_out = f.left_out_unreliable + f.left_out_band;
+  fs.weighting = fit::weighting_name(f.weighting);
+  fs.nrmse = f.result.nrmse;
+  fs.max_err_db = f.result.max_err_db;
+  fs.max_err_deg = f.result.max_err_deg;
+  fs.chi2 = f.result.chi2;
+  fs.dof = f.result.dof;
+  fs.iterations = f.result.iterations;
+  fs.converged = f.result.converged;
+  fs.source = a.frf;
+  const std::string js = fit::model_json(f.result.model, &fs);
+  if (!a.out.empty()) write_file_atomically(a.out, js);
+  if (a.json) std::cout << js;
+  if (!a.out.empty() && !a.quiet) (a.json ? std::cerr : std::cout) << "  wrote " << a.out << "\n";
+}
+
+}  // namespace
+
+void add_fit_command(CLI::App& app) {
+  auto a = std::make_shared<FitArgs>();
+  CLI::App* c = app.add_subcommand(
+      "fit", "Fit a rational model (poles, residues, delay) to an FRF CSV by vector fitting (Gustavsen & Semlyen "
+             "1999, relaxed form of 2006); print poles and zeros as frequency and damping, and the fit quality.");
+  c->add_option("frf", a->frf, "FRF CSV from 'benchid frf'")->required();
+  c->add_option("-o,--out", a->out, "Model JSON to write (benchid.model/1)");
+  c->add_option("--order", a->order, "Poles to fit besides integrators: N (1..200), or auto: the lowest order whose "
+                "residual is consistent with the measurement noise (chi-square test, 99 %), else the lowest Akaike "
+                "criterion (default auto)");
+  c->add_option("--max-order", a->max_order, "Order sweep limit for --order auto (default 20)");
+  c->add_option("--delay", a->delay, "Pure delay in s, or auto: estimated from the phase slope and refined with the "
+                "fit (default 0)");
+  c->add_option("--band", a->band, "Fit only lines in LO:HI, Hz (default: all lines)");
+  c->add_option("--integrators", a->integrators, "Poles fixed at the origin, e.g. 1 for voltage to position of a "
+                "motor (default 0)");
+  c->add_option("--weighting", a->weighting, "variance (1/standard error from the FRF's rel_err, floored at a tenth "
+                "of the median), relative (1/|H|) or uniform (default variance)");
+  c->add_flag("--strictly-proper", a->strictly_proper, "No direct term: the model falls off at high frequency");
+  c->add_flag("--improper", a->improper, "Allow a term proportional to s (rising response)");
+  c->add_flag("--allow-unstable", a->allow_unstable, "Keep right-half-plane poles instead of reflecting them");
+  c->add_option("--max-iterations", a->max_iterations, "Pole relocations before giving up (default 50)");
+  c->add_flag("--json", a->json, "Print the model JSON on stdout (the summary goes to stderr)");
+  c->add_flag("-q,--quiet", a->quiet, "No summary");
+  c->callback([a] {
+    try {
+      run_fit(*a);
+    } catch (const NoResult& e) {
+      std::cerr << "benchid: error: " << a->frf << ": " << e.what() << "\n";
+      std::exit(1);
+    }
+  });
+}
+
+}  // namespace benchid::cli

@@ -1,0 +1,175 @@
+#include "fit/model.h"
+
+#include <Eigen/Dense>
+#include <cmath>
+#include <limits>
+#include <numbers>
+
+namespace benchid::fit {
+
+cplx RationalModel::rational(cplx x) const {
+  cplx v = direct + proportional * x;
+  for (std::size_t i = 0; i < poles.size(); ++i) v += residues[i] / (x - poles[i]);
+  for (int k = 0; k < integrators; ++k) v /= x;
+  return v;
+}
+
+cplx RationalModel::response(double freq_hz) const {
+  const double w = 2 * std::numbers::pi * freq_hz;
+  if (domain == Domain::s) return rational(cplx(0, w)) * std::polar(1.0, -w * delay_s);
+  return rational(std::polar(1.0, w * sample_time_s)) * std::polar(1.0, -w * delay_s);
+}
+
+std::vector<cplx> polynomial_roots(const std::vector<double>& coef_in) {
+  std::vector<double> coef = coef_in;
+  while (!coef.empty() && coef.front() == 0.0) coef.erase(coef.begin());
+  std::vector<cplx> roots;
+  while (coef.size() > 1 && coef.back() == 0.0) {  // roots at the origin
+    roots.emplace_back(0.0);
+    coef.pop_back();
+  }
+  const std::size_t n = coef.size() - 1;
+  if (coef.empty() || n == 0) return roots;
+  Eigen::MatrixXd c = Eigen::MatrixXd::Zero(static_cast<Eigen::Index>(n), static_cast<Eigen::Index>(n));
+  for (std::size_t j = 0; j < n; ++j) c(0, static_cast<Eigen::Index>(j)) = -coef[j + 1] / coef[0];
+  for (std::size_t i = 1; i < n; ++i) c(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(i - 1)) = 1.0;
+  Eigen::EigenSolver<Eigen::MatrixXd> es(c, false);
+  for (Eigen::Index i = 0; i < es.eigenvalues().size(); ++i) roots.push_back(es.eigenvalues()(i));
+  return roots;
+}
+
+std::vector<double> poly_from_roots(const std::vector<cplx>& roots) {
+  std::vector<cplx> p{1.0};
+  for (const cplx& r : roots) {
+    std::vector<cplx> q(p.size() + 1, 0.0);
+    for (std::size_t i = 0; i < p.size(); ++i) {
+      q[i] += p[i];
+      q[i + 1] -= r * p[i];
+    }
+    p = q;
+  }
+  std::vector<double> out(p.size());
+  for (std::size_t i = 0; i < p.size(); ++i) out[i] = p[i].real();
+  return out;
+}
+
+namespace {
+// a (descending) + b (descending), aligned at the constant term
+std::vector<double> add(std::vector<double> a, const std::vector<double>& b) {
+  if (b.size() > a.size()) a.insert(a.begin(), b.size() - a.size(), 0.0);
+  for (std::size_t i = 0; i < b.size(); ++i) a[a.size() - b.size() + i] += b[i];
+  return a;
+}
+std::vector<double> mul(const std::vector<double>& a, const std::vector<double>& b) {
+  std::vector<double> r(a.size() + b.size() - 1, 0.0);
+  for (std::size_t i = 0; i < a.size(); ++i)
+    for (std::size_t j = 0; j < b.size(); ++j) r[i + j] += a[i] * b[j];
+  return r;
+}
+}  // namespace
+
+Polynomial RationalModel::polynomial() const {
+  // den = prod (x - p_i) * x^K; num = sum over poles (and pairs, kept real)
+  // of r/(x - p) * den + (d + h x) * den
+  Polynomial p;
+  std::vector<double> den = poly_from_roots(poles);
+  std::vector<double> num = mul(den, {proportional, direct});
+  std::vector<bool> used(poles.size(), false);
+  for (std::size_t i = 0; i < poles.size(); ++i) {
+    if (used[i]) continue;
+    used[i] = true;
+    std::size_t partner = poles.size();  // the conjugate of a complex pole
+    if (poles[i].imag() != 0)
+      for (std::size_t j = 0; j < poles.size(); ++j)
+        if (!used[j] && poles[j] == std::conj(poles[i])) {
+          partner = j;
+          used[j] = true;
+          break;
+        }
+    std::vector<cplx> others;
+    for (std::size_t j = 0; j < poles.size(); ++j)
+      if (j != i && j != partner) others.push_back(poles[j]);
+    if (partner == poles.size()) {
+      num = add(num, mul(poly_from_roots(others), {residues[i].real()}));
+    } else {
+      // r/(x - p) + r*/(x - p*) = (2 Re(r) x - 2 Re(r p*)) / ((x - p)(x - p*))
+      const std::vector<double> pair{2 * residues[i].real(), -2 * (residues[i] * std::conj(poles[i])).real()};
+      num = add(num, mul(poly_from_roots(others), pair));
+    }
+  }
+  while (num.size() > 1 && num.front() == 0.0) num.erase(num.begin());
+  for (int k = 0; k < integrators; ++k) den.push_back(0.0);
+  p.num = num;
+  p.den = den;
+  return p;
+}
+
+Zpk RationalModel::zpk() const {
+  const Polynomial p = polynomial();
+  Zpk z;
+  z.zeros = polynomial_roots(p.num);
+  z.poles = poles;
+  for (int k = 0; k < integrators; ++k) z.poles.emplace_back(0.0);
+  z.gain = p.num.empty() ? 0.0 : p.num.front();
+  return z;
+}
+
+StateSpace RationalModel::state_space() const {
+  StateSpace ss;
+  std::vector<std::size_t> idx;  // real poles and upper members of pairs
+  for (std::size_t i = 0; i < poles.size(); ++i)
+    if (poles[i].imag() >= 0) idx.push_back(i);
+  std::size_t n = 0;
+  for (std::size_t i : idx) n += poles[i].imag() > 0 ? 2 : 1;
+  const std::size_t nk = static_cast<std::size_t>(integrators);
+  const std::size_t total = n + nk;
+  ss.a.assign(total, std::vector<double>(total, 0.0));
+  ss.b.assign(total, 0.0);
+  ss.c.assign(total, 0.0);
+  // modal blocks of the rational part sum_i r_i/(x - p_i) + d, feeding the
+  // integrator chain when K > 0 (then the chain's last state is the output)
+  std::size_t k = 0;
+  for (std::size_t i : idx) {
+    const cplx p = poles[i], r = residues[i];
+    if (p.imag() == 0) {
+      ss.a[k][k] = p.real();
+      ss.b[k] = 1.0;
+      ss.c[k] = r.real();
+      ++k;
+    } else {
+      // A = [[a, b], [-b, a]], B = [2, 0], C = [Re r, Im r] (see vector_fit.cc)
+      ss.a[k][k] = p.real(), ss.a[k][k + 1] = p.imag();
+      ss.a[k + 1][k] = -p.imag(), ss.a[k + 1][k + 1] = p.real();
+      ss.b[k] = 2.0;
+      ss.c[k] = r.real(), ss.c[k + 1] = r.imag();
+      k += 2;
+    }
+  }
+  ss.d = direct;
+  if (nk > 0) {
+    // z1' = C x + d u, z2' = z1, ..., y = z_K
+    for (std::size_t j = 0; j < n; ++j) ss.a[n][j] = ss.c[j];
+    ss.b[n] = direct;
+    for (std::size_t j = 1; j < nk; ++j) ss.a[n + j][n + j - 1] = 1.0;
+    std::fill(ss.c.begin(), ss.c.end(), 0.0);
+    ss.c[total - 1] = 1.0;
+    ss.d = 0.0;
+  }
+  return ss;
+}
+
+double RationalModel::dc_gain() const {
+  if (integrators > 0) return std::numeric_limits<double>::quiet_NaN();
+  return rational(domain == Domain::s ? cplx(0.0) : cplx(1.0)).real();
+}
+
+Mode mode_of(cplx p) {
+  Mode m;
+  const double wn = std::abs(p);
+  m.freq_hz = wn / (2 * std::numbers::pi);
+  m.damping = wn > 0 ? -p.real() / wn : 1.0;
+  m.real = p.imag() == 0;
+  return m;
+}
+
+}  // namespace benchid::fit

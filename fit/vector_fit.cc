@@ -1,0 +1,323 @@
+#include "fit/vector_fit.h"
+
+#include <Eigen/Dense>
+#include <algorithm>
+#include <cmath>
+#include <numbers>
+
+#include "ident/error.h"
+
+namespace benchid::fit {
+
+using benchid::InputError;
+using benchid::fmt_num;
+
+Weighting parse_weighting(const std::string& s) {
+  if (s == "variance") return Weighting::inverse_variance;
+  if (s == "uniform") return Weighting::uniform;
+  if (s == "relative") return Weighting::relative;
+  throw InputError("weighting '" + s + "' is unknown; expected variance, uniform or relative");
+}
+
+const char* weighting_name(Weighting w) {
+  switch (w) {
+    case Weighting::inverse_variance: return "variance";
+    case Weighting::uniform: return "uniform";
+    case Weighting::relative: return "relative";
+  }
+  return "?";
+}
+
+void validate(const VectorFitOptions& o) {
+  if (o.order < 1 || o.order > 200) throw InputError("order = " + std::to_string(o.order) + ": must be in [1, 200]");
+  if (o.integrators < 0 || o.integrators > 4)
+    throw InputError("integrators = " + std::to_string(o.integrators) + ": must be in [0, 4]");
+  if (!(o.delay_s >= 0) || !std::isfinite(o.delay_s)) throw InputError("delay = " + fmt_num(o.delay_s) + " s: must be >= 0");
+  if (o.max_iterations < 1) throw InputError("max_iterations must be at least 1");
+}
+
+namespace {
+
+using Mat = Eigen::MatrixXd;
+using Vec = Eigen::VectorXd;
+
+// Poles in a canonical order: real ones, then pairs as (a, conj a) with Im a > 0.
+std::vector<cplx> canonical(const std::vector<cplx>& in, bool reflect, int* reflected) {
+  std::vector<cplx> real, upper;
+  for (cplx p : in) {
+    const double tol = 1e-12 * std::max(1.0, std::abs(p));
+    if (reflect && p.real() > 0) {
+      p = cplx(-p.real(), p.imag());
+      if (reflected) ++*reflected;
+    }
+    if (std::fabs(p.imag()) <= tol) real.push_back(p.real());
+    else if (p.imag() > 0) upper.push_back(p);
+  }
+  std::sort(real.begin(), real.end(), [](cplx a, cplx b) { return a.real() < b.real(); });
+  std::sort(upper.begin(), upper.end(), [](cplx a, cplx b) { return a.imag() < b.imag(); });
+  std::vector<cplx> out(real);
+  for (cplx p : upper) {
+    out.push_back(p);
+    out.push_back(std::conj(p));
+  }
+  return out;
+}
+
+// Real basis columns of the partial fractions at s: one per real pole, two
+// per pair (phi1, phi2 of the header).
+void basis(const std::vector<cplx>& poles, cplx s, std::vector<cplx>& phi) {
+  phi.clear();
+  for (std::size_t i = 0; i < poles.size(); ++i) {
+    const cplx p = poles[i];
+    if (p.imag() == 0) {
+      phi.push_back(1.0 / (s - p));
+    } else {
+      const cplx a = 1.0 / (s - p), b = 1.0 / (s - std::conj(p));
+      phi.push_back(a + b);
+      phi.push_back(cplx(0, 1) * a - cplx(0, 1) * b);
+      ++i;  // skip the conjugate
+    }
+  }
+}
+
+// Solves min ||A x - y|| with columns scaled to unit length (Householder QR).
+Vec solve_scaled(Mat a, const Vec& y) {
+  Vec scale(a.cols());
+  for (Eigen::Index j = 0; j < a.cols(); ++j) {
+    const double n = a.col(j).norm();
+    scale(j) = n > 0 ? 1.0 / n : 1.0;
+    a.col(j) *= scale(j);
+  }
+  Vec x = a.colPivHouseholderQr().solve(y);
+  return x.cwiseProduct(scale);
+}
+
+struct Prepared {
+  std::vector<cplx> s, g;   // s_k and the response with integrators and delay removed
+  std::vector<double> w;    // weights for g
+};
+
+Prepared prepare(const FitData& d, const VectorFitOptions& o) {
+  Prepared p;
+  for (std::size_t k = 0; k < d.freq_hz.size(); ++k) {
+    const cplx s(0, 2 * std::numbers::pi * d.freq_hz[k]);
+    cplx g = d.h[k] * std::exp(s * o.delay_s);
+    double w = d.weight[k];
+    for (int i = 0; i < o.integrators; ++i) {
+      g *= s;
+      w /= std::abs(s);
+    }
+    p.s.push_back(s);
+    p.g.push_back(g);
+    p.w.push_back(w);
+  }
+  return p;
+}
+
+// Linear fit of sum c phi + d + h s to g with fixed poles; returns residues etc.
+void fit_residues(const Prepared& p, const std::vector<cplx>& poles, const VectorFitOptions& o, RationalModel& m) {
+  std::vector<cplx> phi;
+  basis(poles, p.s[0], phi);
+  const auto n = static_cast<Eigen::Index>(phi.size());
+  const Eigen::Index cols = n + (o.proper ? 1 : 0) + (o.improper ? 1 : 0);
+  const auto rows = static_cast<Eigen::Index>(2 * p.s.size());
+  Mat a(rows, cols);
+  Vec y(rows);
+  for (std::size_t k = 0; k < p.s.size(); ++k) {
+    basis(poles, p.s[k], phi);
+    const auto r = static_cast<Eigen::Index>(2 * k);
+    Eigen::Index c = 0;
+    for (const cplx& v : phi) {
+      a(r, c) = p.w[k] * v.real();
+      a(r + 1, c) = p.w[k] * v.imag();
+      ++c;
+    }
+    if (o.proper) a(r, c) = p.w[k], a(r + 1, c) = 0, ++c;
+    if (o.improper) a(r, c) = 0.0, a(r + 1, c) = p.w[k] * p.s[k].imag(), ++c;  // h s, s = j w
+    y(r) = p.w[k] * p.g[k].real();
+    y(r + 1) = p.w[k] * p.g[k].imag();
+  }
+  const Vec x = solve_scaled(a, y);
+  m.poles = poles;
+  m.residues.assign(poles.size(), 0.0);
+  Eigen::Index c = 0;
+  for (std::size_t i = 0; i < poles.size(); ++i) {
+    if (poles[i].imag() == 0) {
+      m.residues[i] = x(c++);
+    } else {
+      m.residues[i] = cplx(x(c), x(c + 1));
+      m.residues[i + 1] = cplx(x(c), -x(c + 1));
+      c += 2;
+      ++i;
+    }
+  }
+  m.direct = o.proper ? x(c++) : 0.0;
+  m.proportional = o.improper ? x(c++) : 0.0;
+}
+
+// One pole relocation; returns the new poles.
+std::vector<cplx> relocate(const Prepared& p, const std::vector<cplx>& poles, const VectorFitOptions& o, int* reflected) {
+  std::vector<cplx> phi;
+  basis(poles, p.s[0], phi);
+  const auto n = static_cast<Eigen::Index>(phi.size());
+  const Eigen::Index num_cols = n + (o.proper ? 1 : 0) + (o.improper ? 1 : 0);
+  const Eigen::Index cols = num_cols + n + 1;  // + sigma's c~ and d~
+  const auto lines = p.s.size();
+  const auto rows = static_cast<Eigen::Index>(2 * lines + 1);
+  Mat a = Mat::Zero(rows, cols);
+  Vec y = Vec::Zero(rows);
+  double wg = 0;
+  for (std::size_t k = 0; k < lines; ++k) wg += std::norm(p.w[k] * p.g[k]);
+  const double relax_w = std::sqrt(wg) / static_cast<double>(lines);
+  for (std::size_t k = 0; k < lines; ++k) {
+    basis(poles, p.s[k], phi);
+    const auto r = static_cast<Eigen::Index>(2 * k);
+    const double w = p.w[k];
+    Eigen::Index c = 0;
+    for (const cplx& v : phi) {
+      a(r, c) = w * v.real();
+      a(r + 1, c) = w * v.imag();
+      ++c;
+    }
+    if (o.proper) a(r, c) = w, ++c;
+    if (o.improper) a(r + 1, c) = w * p.s[k].imag(), ++c;
+    for (const cplx& v : phi) {
+      const cplx t = -p.g[k] * v;
+      a(r, c) = w * t.real();
+      a(r + 1, c) = w * t.imag();
+      ++c;
+    }
+    a(r, c) = -w * p.g[k].real();
+    a(r + 1, c) = -w * p.g[k].imag();
+    // relaxation row: Re sum_k sigma(s_k) = K
+    Eigen::Index cs = num_cols;
+    for (const cplx& v : phi) a(rows - 1, cs++) += relax_w * v.real();
+    a(rows - 1, cs) += relax_w;
+  }
+  y(rows - 1) = relax_w * static_cast<double>(lines);
+  Vec x = solve_scaled(a, y);
+  Vec ct = x.segment(num_cols, n);
+  double dt = x(cols - 1);
+  if (std::fabs(dt) < 1e-8) {
+    // sigma's constant came out ~0: fall back to the non-relaxed problem
+    // with d~ = 1 (Gustavsen 2006 recommends this safeguard)
+    Mat a2 = a.topLeftCorner(rows - 1, cols - 1);
+    Vec y2(rows - 1);
+    for (std::size_t k = 0; k < lines; ++k) {
+      y2(static_cast<Eigen::Index>(2 * k)) = p.w[k] * p.g[k].real();
+      y2(static_cast<Eigen::Index>(2 * k + 1)) = p.w[k] * p.g[k].imag();
+    }
+    const Vec x2 = solve_scaled(a2, y2);
+    ct = x2.segment(num_cols, n);
+    dt = 1.0;
+  }
+  // zeros of sigma: eig(A - b c~^T / d~), real block form
+  Mat am = Mat::Zero(n, n);
+  Vec b = Vec::Zero(n);
+  Eigen::Index c = 0;
+  for (std::size_t i = 0; i < poles.size(); ++i) {
+    const cplx q = poles[i];
+    if (q.imag() == 0) {
+      am(c, c) = q.real();
+      b(c) = 1;
+      ++c;
+    } else {
+      am(c, c) = q.real(), am(c, c + 1) = q.imag();
+      am(c + 1, c) = -q.imag(), am(c + 1, c + 1) = q.real();
+      b(c) = 2;
+      c += 2;
+      ++i;
+    }
+  }
+  const Mat h = am - b * ct.transpose() / dt;
+  Eigen::EigenSolver<Mat> es(h, false);
+  std::vector<cplx> z;
+  for (Eigen::Index i = 0; i < es.eigenvalues().size(); ++i) z.push_back(es.eigenvalues()(i));
+  return canonical(z, !o.allow_unstable, reflected);
+}
+
+std::vector<cplx> starting_poles(int order, double w_lo, double w_hi) {
+  // pairs -b/100 +- j b, b log-spaced over the band; a real pole at the
+  // band's geometric middle when the order is odd (Gustavsen & Semlyen 1999)
+  std::vector<cplx> p;
+  const int pairs = order / 2;
+  if (order % 2) p.emplace_back(-std::sqrt(w_lo * w_hi));
+  for (int i = 0; i < pairs; ++i) {
+    const double t = pairs == 1 ? 0.5 : static_cast<double>(i) / (pairs - 1);
+    const double b = w_lo * std::pow(w_hi / w_lo, t);
+    p.emplace_back(-b / 100, b);
+    p.emplace_back(-b / 100, -b);
+  }
+  return canonical(p, false, nullptr);
+}
+
+}  // namespace
+
+void score(FitResult& r, const FitData& d) {
+  double e2 = 0, h2 = 0;
+  r.chi2 = 0;
+  r.max_err_db = r.max_err_deg = 0;
+  for (std::size_t k = 0; k < d.freq_hz.size(); ++k) {
+    const cplx m = r.model.response(d.freq_hz[k]);
+    const cplx e = m - d.h[k];
+    e2 += std::norm(e);
+    h2 += std::norm(d.h[k]);
+    r.chi2 += d.weight[k] * d.weight[k] * std::norm(e);
+    const double db = std::fabs(20 * std::log10(std::abs(m) / std::abs(d.h[k])));
+    const double deg = std::fabs(std::arg(m / d.h[k])) * 180 / std::numbers::pi;
+    if (db > r.max_err_db) r.max_err_db = db, r.max_err_db_hz = d.freq_hz[k];
+    if (deg > r.max_err_deg) r.max_err_deg = deg, r.max_err_deg_hz = d.freq_hz[k];
+  }
+  r.nrmse = h2 > 0 ? std::sqrt(e2 / h2) : 0;
+  const int params = 2 * static_cast<int>(r.model.poles.size()) + (r.model.direct != 0 ? 1 : 0) +
+                     (r.model.proportional != 0 ? 1 : 0);
+  r.dof = 2 * static_cast<int>(d.freq_hz.size()) - params;
+}
+
+FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
+  validate(o);
+  const std::size_t lines = d.freq_hz.size();
+  const std::size_t params = 2 * static_cast<std::size_t>(o.order) + 2;
+  if (lines == 0) throw InputError("no lines to fit; expected an FRF with lines in the band");
+  if (2 * lines < params + 1)
+    throw InputError(std::to_string(lines) + " lines cannot carry an order-" + std::to_string(o.order) +
+                     " fit (" + std::to_string(params) + " real parameters); expected at least " +
+                     std::to_string(params / 2 + 1) + " lines or a lower --order");
+  const Prepared p = prepare(d, o);
+  const double w_lo = std::abs(p.s.front()), w_hi = std::abs(p.s.back());
+  std::vector<cplx> poles = starting_poles(o.order, w_lo, w_hi);
+  FitResult r;
+  int reflected = 0, still = 0;
+  double last_chi2 = -1;
+  for (int it = 0; it < o.max_iterations; ++it) {
+    int refl_now = 0;
+    std::vector<cplx> next = relocate(p, poles, o, &refl_now);
+    double move = 0;
+    if (next.size() == poles.size()) {
+      for (std::size_t i = 0; i < next.size(); ++i)
+        move = std::max(move, std::abs(next[i] - poles[i]) / std::max(std::abs(poles[i]), 1e-300));
+    } else {
+      move = 1.0;  // a pair became two real poles or back
+    }
+    poles = next;
+    reflected = refl_now;
+    r.iterations = it + 1;
+    // With noisy data the poles keep jittering at the noise level: a
+    // weighted residual that no longer changes (1e-7 relative, three
+    // iterations running) counts as converged too.
+    fit_residues(p, poles, o, r.model);
+    r.model.integrators = o.integrators;
+    r.model.delay_s = o.delay_s;
+    score(r, d);
+    still = last_chi2 >= 0 && std::fabs(r.chi2 - last_chi2) <= 1e-7 * std::max(r.chi2, 1e-300) ? still + 1 : 0;
+    last_chi2 = r.chi2;
+    if (move < o.tolerance || still >= 3) {
+      r.converged = true;
+      break;
+    }
+  }
+  r.model.reflected = reflected;
+  return r;
+}
+
+}  // namespace benchid::fit
