@@ -148,7 +148,8 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     vo.delay_s = out.delay_first_s;
   }
   if (o.auto_order) {
-    const int limit = std::min(o.max_order, static_cast<int>(out.data.freq_hz.size()) - 2);
+    // one line per real parameter (see vector_fit): 2 n + 2 <= lines
+    const int limit = std::min(o.max_order, (static_cast<int>(out.data.freq_hz.size()) - 2) / 2);
     if (limit < 1) throw InputError(std::to_string(out.data.freq_hz.size()) + " lines are too few for any order");
     int best_aic_order = 1, accepted = 0;
     double best_aic = 0;
@@ -208,18 +209,31 @@ std::string fit_summary(const FrfFit& f, const std::string& source) {
   const double dc = m.dc_gain();
   if (std::isfinite(dc)) s << "  DC gain " << num(dc, 5) << " (" << num(20 * std::log10(std::fabs(dc)), 4) << " dB)\n";
   else s << "  " << m.integrators << " integrator(s): no DC gain\n";
-  const int rel_degree = static_cast<int>(z.poles.size()) - static_cast<int>(z.zeros.size());
-  s << "  high-frequency roll-off " << -20 * rel_degree << " dB/decade (relative degree " << rel_degree << ")\n";
+  // roll-off: the model's own slope over the decade above the fitted band
+  const double f_top = f.data.freq_hz.back();
+  const double slope = 20 * std::log10(std::abs(m.rational(cplx(0, 20 * std::numbers::pi * f_top))) /
+                                       std::abs(m.rational(cplx(0, 2 * std::numbers::pi * f_top))));
+  s << "  roll-off above the band " << num(slope, 3) << " dB/decade (about " << std::lround(-slope / 20)
+    << " more poles than zeros)\n";
+  // zeros far beyond the band (numerically placed, no effect in the band) are counted, not listed
+  const double far = 100 * 2 * std::numbers::pi * f_top;
   auto list = [&](const char* what, const std::vector<cplx>& v) {
     s << "  " << what << ":\n";
-    if (v.empty()) s << "    none\n";
+    std::size_t beyond = 0, shown = 0;
     for (const cplx& p : v) {
       if (p.imag() < 0) continue;
+      if (std::abs(p) > far) {
+        ++beyond;
+        continue;
+      }
+      ++shown;
       const Mode md = mode_of(p);
       if (std::abs(p) == 0) s << "    at the origin\n";
       else if (md.real) s << "    real  " << num(p.real(), 6) << " rad/s   corner " << num(md.freq_hz, 5) << " Hz" << (p.real() > 0 ? "  (right half plane)" : "") << "\n";
       else s << "    pair  " << num(md.freq_hz, 5) << " Hz   damping " << num(md.damping, 4) << (p.real() > 0 ? "  (right half plane)" : "") << "\n";
     }
+    if (shown == 0 && beyond == 0) s << "    none\n";
+    if (beyond > 0) s << "    (" << beyond << " more beyond 100 x the band's top: no effect within it)\n";
   };
   list("poles", z.poles);
   list("zeros", z.zeros);

@@ -97,7 +97,16 @@ Polynomial RationalModel::polynomial() const {
       num = add(num, mul(poly_from_roots(others), pair));
     }
   }
-  while (num.size() > 1 && num.front() == 0.0) num.erase(num.begin());
+  // Leading coefficients that are rounding left over from the expansion (a
+  // strictly proper model's s^n terms cancel to ~1e-16 of the others) would
+  // become spurious far-away zeros: a term is dropped when, at ten times the
+  // largest pole magnitude, it is below 1e-10 of the largest term.
+  double scale = 1.0;
+  for (const cplx& q : poles) scale = std::max(scale, 10 * std::abs(q));
+  auto term = [&](std::size_t i) { return std::fabs(num[i]) * std::pow(scale, static_cast<double>(num.size() - 1 - i)); };
+  double biggest = 0;
+  for (std::size_t i = 0; i < num.size(); ++i) biggest = std::max(biggest, term(i));
+  while (num.size() > 1 && term(0) <= 1e-10 * biggest) num.erase(num.begin());
   for (int k = 0; k < integrators; ++k) den.push_back(0.0);
   p.num = num;
   p.den = den;

@@ -277,12 +277,14 @@ void score(FitResult& r, const FitData& d) {
 FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
   validate(o);
   const std::size_t lines = d.freq_hz.size();
-  const std::size_t params = 2 * static_cast<std::size_t>(o.order) + 2;
+  // at least one line (two real equations) per real parameter: poles and
+  // residues, plus d and h
+  const std::size_t params = 2 * static_cast<std::size_t>(o.order) + (o.proper ? 1 : 0) + (o.improper ? 1 : 0);
   if (lines == 0) throw InputError("no lines to fit; expected an FRF with lines in the band");
-  if (2 * lines < params + 1)
+  if (lines < params)
     throw InputError(std::to_string(lines) + " lines cannot carry an order-" + std::to_string(o.order) +
-                     " fit (" + std::to_string(params) + " real parameters); expected at least " +
-                     std::to_string(params / 2 + 1) + " lines or a lower --order");
+                     " fit (" + std::to_string(params) + " real parameters); expected at least one line per "
+                     "parameter, or a lower --order");
   const Prepared p = prepare(d, o);
   const double w_lo = std::abs(p.s.front()), w_hi = std::abs(p.s.back());
   std::vector<cplx> poles = starting_poles(o.order, w_lo, w_hi);

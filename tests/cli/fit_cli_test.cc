@@ -1,0 +1,98 @@
+// `benchid fit` as a user runs it: an FRF CSV in, a model JSON and a summary out;
+// bad input exit 2 with one line and no file; a fit that cannot converge exit 1.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <filesystem>
+
+#include "fit/model_json.h"
+#include "ident/frf_csv.h"
+#include "tests/support/run_cli.h"
+#include "tests/support/temp_dir.h"
+
+using benchid::test::Outcome;
+using benchid::test::TempDir;
+namespace fs = std::filesystem;
+
+namespace {
+
+Outcome run(const TempDir& d, const std::string& args) { return benchid::test::run_benchid(d, args); }
+
+// An FRF CSV of 10/(s/(2 pi 8) + 1) . w^2/(s^2 + 2 z w s + w^2), w = 2 pi 40 Hz, z = 0.05.
+std::string write_frf(const TempDir& d, int lines, bool reliable, const std::string& name = "plant.csv") {
+  benchid::ident::Frf f;
+  f.rate_hz = 1000;
+  f.segment = 1000;
+  f.averages = 20;
+  f.effective_averages = 20;
+  const double w = 2 * M_PI * 40, z = 0.05, wp = 2 * M_PI * 8;
+  for (int k = 1; k <= lines; ++k) {
+    const double fr = 0.5 * std::pow(400.0, static_cast<double>(k - 1) / (lines - 1));
+    const std::complex<double> s(0, 2 * M_PI * fr);
+    f.freq_hz.push_back(fr);
+    f.h.push_back(10.0 / (s / wp + 1.0) * w * w / (s * s + 2 * z * w * s + w * w));
+    f.coherence.push_back(0.99);
+    f.rel_err.push_back(0.005);
+    f.reliable.push_back(reliable);
+  }
+  std::ostringstream s;
+  benchid::ident::write_frf_csv(s, f);
+  return d.write(name, s.str());
+}
+
+TEST(FitCli, WritesModelAndSummary) {
+  TempDir d;
+  const auto frf = write_frf(d, 300, true);
+  const Outcome r = run(d, "fit " + frf + " --order 3 --strictly-proper -o " + d.file("m.json"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_NE(r.out.find("pair  40 Hz   damping 0.05"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("corner 8 Hz"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("DC gain 10"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("about 3 more poles than zeros"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("holds only within the fitted band"), std::string::npos) << r.out;
+  const auto m = benchid::fit::read_model_json(d.file("m.json"));
+  EXPECT_NEAR(m.dc_gain(), 10.0, 1e-6);
+}
+
+TEST(FitCli, AutoOrderPrintsTheSweep) {
+  TempDir d;
+  const Outcome r = run(d, "fit " + write_frf(d, 200, true) + " --max-order 6 --strictly-proper --json");
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_NE(r.err.find("order sweep"), std::string::npos) << r.err;
+  EXPECT_EQ(r.out.rfind("{", 0), 0u);  // --json: only the JSON on stdout
+  EXPECT_NE(r.out.find("\"format\": \"benchid.model/1\""), std::string::npos);
+}
+
+TEST(FitCli, BadInputExitsTwoWithoutOutput) {
+  TempDir d;
+  struct Case {
+    std::string args, fragment;
+  };
+  const std::string ok = write_frf(d, 40, true);
+  const std::string unreliable = write_frf(d, 40, false, "bad.csv");
+  d.write("nan.csv", "freq_hz,re,im\n1,1,0\n2,nan,0\n");
+  for (const Case& c : std::vector<Case>{
+           {unreliable + " --order 2", "all 40 lines in the band are flagged unreliable"},
+           {ok + " --order 30", "40 lines cannot carry an order-30 fit"},
+           {ok + " --order 2 --band 900:1000", "holds no line"},
+           {ok + " --order two", "--order 'two' is not a number"},
+           {ok + " --weighting loud", "weighting 'loud' is unknown"},
+           {d.file("nan.csv") + " --order 1", "nan.csv:3: column 're' value 'nan' is not a finite number"},
+       }) {
+    const Outcome r = run(d, "fit " + c.args + " -o " + d.file("out.json"));
+    EXPECT_EQ(r.code, 2) << c.args << "\n" << r.err;
+    EXPECT_EQ(r.err.rfind("benchid: error: ", 0), 0u) << r.err;
+    EXPECT_NE(r.err.find(c.fragment), std::string::npos) << r.err;
+    EXPECT_FALSE(fs::exists(d.file("out.json")));
+  }
+}
+
+TEST(FitCli, NonConvergenceExitsOneWithAdvice) {
+  TempDir d;
+  const Outcome r = run(d, "fit " + write_frf(d, 300, true) + " --order 12 --max-iterations 1 -o " + d.file("m.json"));
+  EXPECT_EQ(r.code, 1) << r.err;
+  EXPECT_NE(r.err.find("did not converge in 1 iterations; try a lower --order"), std::string::npos) << r.err;
+  EXPECT_FALSE(fs::exists(d.file("m.json")));
+}
+
+}  // namespace

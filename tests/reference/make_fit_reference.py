@@ -1,0 +1,39 @@
+#!/usr/bin/python3
+"""Reference values for benchid's model-conversion tests, from scipy.signal.
+
+Run with Debian's python3-scipy (the committed file came from SciPy 1.10.1 /
+NumPy 1.24.2):   /usr/bin/python3 make_fit_reference.py
+
+The test model (poles/residues in rad/s, direct term d):
+  poles    -5, -20 +- 300j, -2 +- 1500j, -800
+  residues 40, 7 +- 90j, -3 +- 25j, 1200
+  d = 0.05
+Writes fit_reference.txt next to this script:
+  num / den   scipy.signal.invres(r, p, [d]) (descending powers)
+  freqs F RE IM   scipy.signal.freqs(num, den, 2 pi F) at F Hz
+  zeros RE IM     numpy.roots(num)
+"""
+import os
+
+import numpy as np
+import scipy
+from scipy import signal
+
+here = os.path.dirname(os.path.abspath(__file__))
+p = np.array([-5, -20 + 300j, -20 - 300j, -2 + 1500j, -2 - 1500j, -800])
+r = np.array([40, 7 + 90j, 7 - 90j, -3 + 25j, -3 - 25j, 1200])
+d = 0.05
+b, a = signal.invres(r, p, [d])
+b, a = np.real(b), np.real(a)
+f = np.array([0.1, 1, 10, 47.7, 100, 238.7, 500, 2000])
+_, h = signal.freqs(b, a, 2 * np.pi * f)
+z = np.roots(b)
+with open(os.path.join(here, "fit_reference.txt"), "w") as out:
+    out.write(f"# scipy {scipy.__version__} numpy {np.__version__}: signal.invres, signal.freqs, numpy.roots\n")
+    out.write("num " + " ".join(f"{v:.17g}" for v in b) + "\n")
+    out.write("den " + " ".join(f"{v:.17g}" for v in a) + "\n")
+    for fi, hi in zip(f, h):
+        out.write(f"freqs {fi:.17g} {hi.real:.17g} {hi.imag:.17g}\n")
+    for zi in sorted(z, key=lambda v: (v.real, v.imag)):
+        out.write(f"zero {zi.real:.17g} {zi.imag:.17g}\n")
+print("scipy", scipy.__version__)
