@@ -11,5 +11,6 @@ namespace benchid::cli {
 void add_frf_command(CLI::App& app, const std::string& command_line);
 void add_excite_command(CLI::App& app);
 void add_fit_command(CLI::App& app);
+void add_replay_command(CLI::App& app);
 
 }  // namespace benchid::cli

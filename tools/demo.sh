@@ -14,4 +14,7 @@ mkdir -p demo_out
 # a model of the well-measured band (coherence falls above ~250 Hz, where the drive has no energy)
 ./build/cli/benchid fit demo_out/frf.csv --band 0.4:250 --delay auto --max-order 8 -o demo_out/model.json \
   | tee demo_out/model.txt
-echo "benchid demo: open demo_out/report.txt and demo_out/model.txt (data: demo_out/frf.csv, demo_out/model.json)"
+# does the model explain the time data? (here the same record; use a second run on a real bench)
+./build/cli/benchid replay demo_out/model.json datasets_demo/belt_axis/belt_axis_log.csv --input drive_v \
+  --output speed_rads -o demo_out/replay.csv | tee -a demo_out/model.txt
+echo "benchid demo: open demo_out/report.txt and demo_out/model.txt (data: demo_out/frf.csv, demo_out/model.json, demo_out/replay.csv)"

@@ -12,6 +12,8 @@ Writes fit_reference.txt next to this script:
   num / den   scipy.signal.invres(r, p, [d]) (descending powers)
   freqs F RE IM   scipy.signal.freqs(num, den, 2 pi F) at F Hz
   zeros RE IM     numpy.roots(num)
+  zoh_rate R / zoh_u ... / zoh_y ...   scipy.signal.cont2discrete((num, den), 1/R, 'zoh')
+                  then scipy.signal.dlsim on the input zoh_u (400 samples, R = 8000 Hz)
 """
 import os
 
@@ -36,4 +38,12 @@ with open(os.path.join(here, "fit_reference.txt"), "w") as out:
         out.write(f"freqs {fi:.17g} {hi.real:.17g} {hi.imag:.17g}\n")
     for zi in sorted(z, key=lambda v: (v.real, v.imag)):
         out.write(f"zero {zi.real:.17g} {zi.imag:.17g}\n")
+    rate = 8000.0
+    k = np.arange(400)
+    u = np.sin(0.05 * k) + 0.5 * np.sign(np.sin(0.0031 * k * k / 40 + 0.1))
+    bd, ad, _ = signal.cont2discrete((b, a), 1 / rate, method="zoh")
+    _, y = signal.dlsim((np.ravel(bd), ad, 1 / rate), u)
+    out.write(f"zoh_rate {rate:.17g}\n")
+    out.write("zoh_u " + " ".join(f"{v:.17g}" for v in u) + "\n")
+    out.write("zoh_y " + " ".join(f"{v:.17g}" for v in np.ravel(y)) + "\n")
 print("scipy", scipy.__version__)
