@@ -1,5 +1,7 @@
 // benchid fit FRF.csv [--order N|auto] [--delay auto|SECONDS] [--band LO:HI] [-o MODEL.json]
 #include <cmath>
+#include <cstdio>
+#include <numbers>
 #include <cstdlib>
 #include <iostream>
 #include <stdexcept>
@@ -8,6 +10,7 @@
 #include "cli/commands.h"
 #include "cli/output.h"
 #include "cli/parse.h"
+#include "fit/discretize.h"
 #include "fit/fit_frf.h"
 #include "fit/model_json.h"
 #include "ident/error.h"
@@ -22,6 +25,8 @@ struct FitArgs {
   int max_order = fit::FitOptions{}.max_order;
   int integrators = 0;
   int max_iterations = fit::VectorFitOptions{}.max_iterations;
+  std::string discretize;
+  double sample_time_s = 0, prewarp_hz = 0;
   bool strictly_proper = false, improper = false, allow_unstable = false, json = false, quiet = false;
 };
 
@@ -32,6 +37,8 @@ struct NoResult : std::runtime_error {
 
 void run_fit(const FitArgs& a) {
   refuse_overwriting_input(a.out, {a.frf});
+  if (!a.discretize.empty() && !(a.sample_time_s > 0))
+    throw InputError("--discretize needs --sample-time SECONDS (the firmware's sample period)");
   const ident::Frf frf = ident::read_frf_csv(a.frf);
   fit::FitOptions o;
   o.weighting = fit::parse_weighting(a.weighting);
@@ -81,7 +88,43 @@ void run_fit(const FitArgs& a) {
   fs.iterations = f.result.iterations;
   fs.converged = f.result.converged;
   fs.source = a.frf;
-  const std::string js = fit::model_json(f.result.model, &fs);
+  fit::RationalModel out_model = f.result.model;
+  std::ostream& say = a.json ? std::cerr : std::cout;
+  if (!a.discretize.empty()) {
+    fit::DiscretizeOptions d;
+    d.method = fit::parse_discretization(a.discretize);
+    d.sample_time_s = a.sample_time_s;
+    d.prewarp_hz = a.prewarp_hz;
+    const fit::Discretized z = fit::discretize(f.result.model, d);
+    out_model = z.model;
+    // how far the discrete model departs from the continuous one in the band
+    double worst_db = 0, worst_deg = 0, at_db = 0, at_deg = 0;
+    for (double fr : f.data.freq_hz) {
+      if (fr >= 0.5 / d.sample_time_s) break;
+      const std::complex<double> q = z.model.response(fr) / f.result.model.response(fr);
+      const double db = std::fabs(20 * std::log10(std::abs(q))), deg = std::fabs(std::arg(q)) * 180 / std::numbers::pi;
+      if (db > worst_db) worst_db = db, at_db = fr;
+      if (deg > worst_deg) worst_deg = deg, at_deg = fr;
+    }
+    if (!a.quiet) {
+      say << "  discrete (" << a.discretize << ", T = " << fmt_num(d.sample_time_s) << " s" << (d.prewarp_hz > 0 ? ", prewarped at " + fmt_num(d.prewarp_hz) + " Hz" : "")
+          << "): differs from the continuous model by up to " << fmt_num(worst_db) << " dB (at " << fmt_num(at_db)
+          << " Hz) and " << fmt_num(worst_deg) << " deg (at " << fmt_num(at_deg) << " Hz) in the band below Nyquist\n";
+      if (z.delay_rounding_s != 0)
+        say << "  the delay was rounded to whole samples by " << fmt_num(z.delay_rounding_s * 1e3) << " ms\n";
+      const auto sos = fit::second_order_sections(z.model);
+      const long delay_samples = std::lround(z.model.delay_s / d.sample_time_s);
+      say << "  second-order sections, y = sections(u delayed by " << delay_samples
+          << " samples); each (b0 + b1 z^-1 + b2 z^-2)/(1 + a1 z^-1 + a2 z^-2):\n";
+      char b[200];
+      for (const auto& sec : sos) {
+        std::snprintf(b, sizeof b, "    b = [% .12e, % .12e, % .12e]  a = [1, % .12e, % .12e]\n", sec[0], sec[1], sec[2],
+                      sec[4], sec[5]);
+        say << b;
+      }
+    }
+  }
+  const std::string js = fit::model_json(out_model, &fs);
   if (!a.out.empty()) write_file_atomically(a.out, js);
   if (a.json) std::cout << js;
   if (!a.out.empty() && !a.quiet) (a.json ? std::cerr : std::cout) << "  wrote " << a.out << "\n";
@@ -110,6 +153,11 @@ void add_fit_command(CLI::App& app) {
   c->add_flag("--strictly-proper", a->strictly_proper, "No direct term: the model falls off at high frequency");
   c->add_flag("--improper", a->improper, "Allow a term proportional to s (rising response)");
   c->add_flag("--allow-unstable", a->allow_unstable, "Keep right-half-plane poles instead of reflecting them");
+  c->add_option("--discretize", a->discretize, "Also make a discrete-time model for firmware: zoh (exact for a held "
+                "input; fractional delays kept) or tustin (bilinear; delay rounded to whole samples); the JSON is "
+                "then the z-domain model and the second-order sections are printed");
+  c->add_option("--sample-time", a->sample_time_s, "Sample period of the discrete model, s (needed with --discretize)");
+  c->add_option("--prewarp", a->prewarp_hz, "Tustin: frequency in Hz where the discrete response is exact (default: none)");
   c->add_option("--max-iterations", a->max_iterations, "Pole relocations before giving up (default 50)");
   c->add_flag("--json", a->json, "Print the model JSON on stdout (the summary goes to stderr)");
   c->add_flag("-q,--quiet", a->quiet, "No summary");

@@ -10,7 +10,7 @@ namespace benchid::fit {
 cplx RationalModel::rational(cplx x) const {
   cplx v = direct + proportional * x;
   for (std::size_t i = 0; i < poles.size(); ++i) v += residues[i] / (x - poles[i]);
-  for (int k = 0; k < integrators; ++k) v /= x;
+  for (int k = 0; k < integrators; ++k) v /= domain == Domain::s ? x : x - 1.0;
   return v;
 }
 
@@ -107,7 +107,7 @@ Polynomial RationalModel::polynomial() const {
   double biggest = 0;
   for (std::size_t i = 0; i < num.size(); ++i) biggest = std::max(biggest, term(i));
   while (num.size() > 1 && term(0) <= 1e-10 * biggest) num.erase(num.begin());
-  for (int k = 0; k < integrators; ++k) den.push_back(0.0);
+  for (int k = 0; k < integrators; ++k) den = mul(den, domain == Domain::s ? std::vector<double>{1.0, 0.0} : std::vector<double>{1.0, -1.0});
   p.num = num;
   p.den = den;
   return p;
@@ -118,7 +118,7 @@ Zpk RationalModel::zpk() const {
   Zpk z;
   z.zeros = polynomial_roots(p.num);
   z.poles = poles;
-  for (int k = 0; k < integrators; ++k) z.poles.emplace_back(0.0);
+  for (int k = 0; k < integrators; ++k) z.poles.emplace_back(domain == Domain::s ? 0.0 : 1.0);
   z.gain = p.num.empty() ? 0.0 : p.num.front();
   return z;
 }

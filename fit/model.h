@@ -2,10 +2,11 @@
 //
 // Authoritative form (pole-residue), in the Laplace variable s in rad/s for
 // domain "s", or in z for domain "z" (sample time T_s):
-//   H(x) = [ sum_i r_i / (x - p_i) + d + h x ] / x^K * e^(-s delay)
+//   H(x) = [ sum_i r_i / (x - p_i) + d + h x ] / q(x)^K * e^(-s delay)
 // x = s or z; poles p_i and residues r_i complex, conjugate pairs both listed
-// (a real model); d "direct", h "proportional" (s only); K integrators (poles
-// at the origin, kept apart so that repeated poles at 0 are exact). The delay
+// (a real model); d "direct", h "proportional" (s only); K integrators, kept
+// apart so that repeated poles are exact: q(s) = s (poles at the origin),
+// q(z) = z - 1 (poles at z = 1). The delay
 // is e^(-s delay_s) in s, z^(-delay/T_s) in z (a whole number of samples there).
 // Frequencies given to response() are in Hz.
 #pragma once

@@ -47,3 +47,24 @@ with open(os.path.join(here, "fit_reference.txt"), "w") as out:
     out.write("zoh_u " + " ".join(f"{v:.17g}" for v in u) + "\n")
     out.write("zoh_y " + " ".join(f"{v:.17g}" for v in np.ravel(y)) + "\n")
 print("scipy", scipy.__version__)
+
+# discretisation: a third-order model at T = 1 ms (appended to fit_reference.txt)
+p3 = np.array([-30, -10 + 200j, -10 - 200j])
+r3 = np.array([30, -5 + 40j, -5 - 40j])
+b3, a3 = signal.invres(r3, p3, [])
+b3, a3 = np.real(b3), np.real(a3)
+T = 1e-3
+fz = np.array([0.5, 5, 31.8, 100, 300, 450])
+with open(os.path.join(here, "fit_reference.txt"), "a") as out:
+    for method, kw in (("zoh", {}), ("bilinear", {}), ("bilinear_prewarp", {"alpha": None})):
+        if method == "bilinear_prewarp":
+            # prewarped at 31.8 Hz: scipy.signal.bilinear with fs = w_p / (2 tan(w_p T / 2))
+            wp = 2 * np.pi * 31.8
+            fs_equiv = wp / (2 * np.tan(wp * T / 2))
+            bd, ad = signal.bilinear(b3, a3, fs=fs_equiv)
+        else:
+            bd, ad, _ = signal.cont2discrete((b3, a3), T, method=method)
+            bd = np.ravel(bd)
+        _, hz = signal.freqz(bd, ad, worN=fz, fs=1 / T)
+        for fi, hi in zip(fz, hz):
+            out.write(f"disc {method} {fi:.17g} {hi.real:.17g} {hi.imag:.17g}\n")

@@ -1,0 +1,218 @@
+#include "fit/discretize.h"
+
+#include <Eigen/Dense>
+#include <algorithm>
+#include <cmath>
+#include <numbers>
+#include <unsupported/Eigen/MatrixFunctions>
+
+#include "ident/error.h"
+
+namespace benchid::fit {
+
+using benchid::fmt_num;
+using benchid::InputError;
+using Mat = Eigen::MatrixXd;
+using Vec = Eigen::VectorXd;
+
+Discretization parse_discretization(const std::string& s) {
+  if (s == "zoh") return Discretization::zoh;
+  if (s == "tustin") return Discretization::tustin;
+  throw InputError("discretisation '" + s + "' is unknown; expected zoh or tustin");
+}
+
+namespace {
+
+// pole-residue form of C (zI - A)^-1 B + D by eigen-decomposition (distinct poles)
+RationalModel from_state_space(const Mat& a, const Vec& b, const Vec& c, double d) {
+  Eigen::EigenSolver<Mat> es(a, true);
+  const Eigen::MatrixXcd v = es.eigenvectors();
+  const Eigen::MatrixXcd w = v.inverse();
+  RationalModel m;
+  m.domain = Domain::z;
+  for (Eigen::Index i = 0; i < a.rows(); ++i) {
+    const cplx lam = es.eigenvalues()(i);
+    const cplx cv = c.cast<cplx>().dot(v.col(i).conjugate());  // c^T v (dot conjugates its left side)
+    const cplx wb = w.row(i).dot(b.cast<cplx>().conjugate());
+    m.poles.push_back(lam);
+    m.residues.push_back(std::conj(cv) * std::conj(wb));
+  }
+  m.direct = d;
+  return m;
+}
+
+// Real model from (pole, residue) lists that should hold conjugate pairs.
+void tidy(RationalModel& m) {
+  for (std::size_t i = 0; i < m.poles.size(); ++i) {
+    if (std::fabs(m.poles[i].imag()) <= 1e-12 * std::max(1.0, std::abs(m.poles[i]))) {
+      m.poles[i] = m.poles[i].real();
+      m.residues[i] = m.residues[i].real();
+    }
+  }
+}
+
+}  // namespace
+
+Discretized discretize(const RationalModel& m, const DiscretizeOptions& o) {
+  if (m.domain != Domain::s) throw InputError("the model is already discrete (domain z)");
+  if (!(o.sample_time_s > 0) || !std::isfinite(o.sample_time_s))
+    throw InputError("sample time " + fmt_num(o.sample_time_s) + " s: expected a positive time");
+  if (m.proportional != 0) throw InputError("an improper model (a term in s) has no discrete equivalent by this method");
+  const double t = o.sample_time_s;
+  Discretized out;
+  if (o.method == Discretization::zoh) {
+    if (m.integrators > 1)
+      throw InputError("zoh of more than one integrator is not supported yet (repeated poles at z = 1)");
+    const StateSpace ss = m.state_space();
+    const auto n = static_cast<Eigen::Index>(ss.b.size());
+    const double samples = m.delay_s / t;
+    const auto whole = static_cast<long>(std::floor(samples + 1e-9));
+    const double frac = samples - static_cast<double>(whole);
+    const bool extra = frac > 1e-9;
+    const Eigen::Index nn = n + (extra ? 1 : 0);
+    Mat a(n, n);
+    Vec b(n), c(n);
+    for (Eigen::Index i = 0; i < n; ++i) {
+      for (Eigen::Index j = 0; j < n; ++j) a(i, j) = ss.a[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)];
+      b(i) = ss.b[static_cast<std::size_t>(i)];
+      c(i) = ss.c[static_cast<std::size_t>(i)];
+    }
+    auto hold = [&](double tau) {
+      Mat big = Mat::Zero(n + 1, n + 1);
+      big.topLeftCorner(n, n) = a * tau;
+      big.topRightCorner(n, 1) = b * tau;
+      const Mat e = big.exp();
+      return std::pair<Mat, Vec>{e.topLeftCorner(n, n), e.topRightCorner(n, 1)};
+    };
+    Mat ad = Mat::Zero(nn, nn);
+    Vec bd = Vec::Zero(nn), cd = Vec::Zero(nn);
+    double dd = ss.d;
+    const auto [phi, gam] = hold(t);
+    ad.topLeftCorner(n, n) = phi;
+    cd.head(n) = c;
+    if (!extra) {
+      bd.head(n) = gam;
+    } else {
+      // state [x; u(k-1)]: x+ = Ad x + B1 u + B2 u(k-1); y = C x + D u(k-1)
+      const auto [e1, i1] = hold((1 - frac) * t);
+      const auto [unused, i2] = hold(frac * t);
+      (void)unused;
+      bd.head(n) = i1;
+      ad.block(0, n, n, 1) = e1 * i2;
+      bd(n) = 1.0;
+      cd(n) = ss.d;
+      dd = 0.0;
+    }
+    out.model = from_state_space(ad, bd, cd, dd);
+    out.model.delay_s = static_cast<double>(whole) * t;
+  } else {
+    double cst = 2.0 / t;
+    if (o.prewarp_hz > 0) {
+      const double wp = 2 * std::numbers::pi * o.prewarp_hz;
+      if (!(wp * t / 2 < std::numbers::pi / 2)) throw InputError("prewarp " + fmt_num(o.prewarp_hz) + " Hz: expected below Nyquist");
+      cst = wp / std::tan(wp * t / 2);
+    }
+    const Zpk z = m.zpk();
+    std::vector<cplx> zz, pz;
+    double gain = z.gain;
+    cplx ratio = 1.0;
+    for (const cplx& q : z.zeros) zz.push_back((cst + q) / (cst - q)), ratio *= cst - q;
+    for (const cplx& p : z.poles) pz.push_back((cst + p) / (cst - p)), ratio /= cst - p;
+    gain *= ratio.real();
+    while (zz.size() < pz.size()) zz.emplace_back(-1.0);
+    if (zz.size() > pz.size()) throw InputError("an improper model has no bilinear equivalent");
+    // pole-residue in z: r_i = gain prod(p_i - z_j) / prod_{j != i}(p_i - p_j), direct = gain
+    // (numerator and denominator of equal degree after the bilinear map)
+    RationalModel r;
+    r.domain = Domain::z;
+    for (std::size_t i = 0; i < pz.size(); ++i) {
+      cplx v = gain;
+      for (const cplx& q : zz) v *= pz[i] - q;
+      for (std::size_t j = 0; j < pz.size(); ++j)
+        if (j != i) v /= pz[i] - pz[j];
+      r.poles.push_back(pz[i]);
+      r.residues.push_back(v);
+    }
+    r.direct = gain;
+    const double samples = std::round(m.delay_s / t);
+    out.delay_rounding_s = samples * t - m.delay_s;
+    r.delay_s = samples * t;
+    out.model = r;
+  }
+  out.model.sample_time_s = t;
+  tidy(out.model);
+  return out;
+}
+
+std::vector<Section> second_order_sections(const RationalModel& zm) {
+  if (zm.domain != Domain::z) throw InputError("second-order sections need a z-domain model");
+  const Zpk z = zm.zpk();
+  std::vector<cplx> poles = z.poles, zeros = z.zeros;
+  // poles nearest the unit circle last (scaled sections stay small)
+  std::vector<std::vector<cplx>> pgroups;
+  std::vector<bool> used(poles.size(), false);
+  for (std::size_t i = 0; i < poles.size(); ++i) {
+    if (used[i]) continue;
+    used[i] = true;
+    std::vector<cplx> g{poles[i]};
+    if (poles[i].imag() != 0) {
+      for (std::size_t j = 0; j < poles.size(); ++j)
+        if (!used[j] && std::abs(poles[j] - std::conj(poles[i])) < 1e-9 * std::max(1.0, std::abs(poles[i]))) {
+          used[j] = true;
+          g.push_back(poles[j]);
+          break;
+        }
+    }
+    pgroups.push_back(g);
+  }
+  // two real poles share a section
+  std::vector<std::vector<cplx>> sections_p;
+  std::vector<cplx> lone;
+  for (auto& g : pgroups) {
+    if (g.size() == 2) sections_p.push_back(g);
+    else lone.push_back(g[0]);
+  }
+  std::sort(lone.begin(), lone.end(), [](cplx a, cplx b) { return std::abs(a) < std::abs(b); });
+  for (std::size_t i = 0; i < lone.size(); i += 2) {
+    std::vector<cplx> g{lone[i]};
+    if (i + 1 < lone.size()) g.push_back(lone[i + 1]);
+    sections_p.push_back(g);
+  }
+  std::sort(sections_p.begin(), sections_p.end(),
+            [](const auto& a, const auto& b) { return std::abs(a[0]) < std::abs(b[0]); });
+  std::vector<Section> out;
+  std::vector<bool> zused(zeros.size(), false);
+  for (std::size_t s = 0; s < sections_p.size(); ++s) {
+    const auto& g = sections_p[s];
+    // nearest zeros, as many as poles, keeping conjugates together
+    std::vector<cplx> zs;
+    while (zs.size() < g.size()) {
+      std::size_t best = zeros.size();
+      for (std::size_t j = 0; j < zeros.size(); ++j)
+        if (!zused[j] && (best == zeros.size() || std::abs(zeros[j] - g[0]) < std::abs(zeros[best] - g[0]))) best = j;
+      if (best == zeros.size()) break;
+      zused[best] = true;
+      zs.push_back(zeros[best]);
+      if (zeros[best].imag() != 0 && zs.size() < g.size())
+        for (std::size_t j = 0; j < zeros.size(); ++j)
+          if (!zused[j] && std::abs(zeros[j] - std::conj(zeros[best])) < 1e-9 * std::max(1.0, std::abs(zeros[best]))) {
+            zused[j] = true;
+            zs.push_back(zeros[j]);
+            break;
+          }
+    }
+    std::vector<double> num = poly_from_roots(zs), den = poly_from_roots(g);
+    // z^-1 form: divide both by z^(poles): fewer zeros than poles means a
+    // numerator that starts later (padded on the left: a delay)...
+    while (num.size() < den.size()) num.insert(num.begin(), 0.0);
+    // ...and a first-order section is padded on the right
+    while (num.size() < 3) num.push_back(0.0);
+    while (den.size() < 3) den.push_back(0.0);
+    if (s == 0)
+      for (double& v : num) v *= z.gain;
+    out.push_back({num[0], num[1], num[2], den[0], den[1], den[2]});
+  }
+  return out;
+}
+
+}  // namespace benchid::fit
