@@ -25,7 +25,7 @@ struct FitArgs {
   int max_order = fit::FitOptions{}.max_order;
   int integrators = 0;
   int max_iterations = fit::VectorFitOptions{}.max_iterations;
-  std::string discretize;
+  std::string discretize, method = "vf", domain = "s";
   double sample_time_s = 0, prewarp_hz = 0;
   bool strictly_proper = false, improper = false, allow_unstable = false, json = false, quiet = false;
 };
@@ -47,6 +47,15 @@ void run_fit(const FitArgs& a) {
   o.vf.improper = a.improper;
   o.vf.allow_unstable = a.allow_unstable;
   o.vf.max_iterations = a.max_iterations;
+  if (a.method != "vf" && a.method != "sk") throw InputError("--method '" + a.method + "' is unknown; expected vf or sk");
+  o.polynomial = a.method == "sk";
+  if (a.domain != "s" && a.domain != "z") throw InputError("--domain '" + a.domain + "' is unknown; expected s or z");
+  if (a.domain == "z") {
+    if (!(a.sample_time_s > 0)) throw InputError("--domain z needs --sample-time SECONDS (the controller's sample period)");
+    if (!a.discretize.empty()) throw InputError("--discretize makes a z model from an s fit; with --domain z the fit is already in z");
+    o.vf.domain = fit::Domain::z;
+    o.vf.sample_time_s = a.sample_time_s;
+  }
   o.max_order = a.max_order;
   if (a.order == "auto") {
     o.auto_order = true;
@@ -153,10 +162,14 @@ void add_fit_command(CLI::App& app) {
   c->add_flag("--strictly-proper", a->strictly_proper, "No direct term: the model falls off at high frequency");
   c->add_flag("--improper", a->improper, "Allow a term proportional to s (rising response)");
   c->add_flag("--allow-unstable", a->allow_unstable, "Keep right-half-plane poles instead of reflecting them");
+  c->add_option("--method", a->method, "vf (vector fitting) or sk (Sanathanan-Koerner iteration on the polynomial "
+                "form: the classic method, ill-conditioned above about order 10; for comparison) (default vf)");
+  c->add_option("--domain", a->domain, "s (continuous, default) or z: fit a discrete-time model directly, for a plant "
+                "measured through a digital controller (needs --sample-time)");
   c->add_option("--discretize", a->discretize, "Also make a discrete-time model for firmware: zoh (exact for a held "
                 "input; fractional delays kept) or tustin (bilinear; delay rounded to whole samples); the JSON is "
                 "then the z-domain model and the second-order sections are printed");
-  c->add_option("--sample-time", a->sample_time_s, "Sample period of the discrete model, s (needed with --discretize)");
+  c->add_option("--sample-time", a->sample_time_s, "Sample period of the discrete model, s (with --discretize or --domain z)");
   c->add_option("--prewarp", a->prewarp_hz, "Tustin: frequency in Hz where the discrete response is exact (default: none)");
   c->add_option("--max-iterations", a->max_iterations, "Pole relocations before giving up (default 50)");
   c->add_flag("--json", a->json, "Print the model JSON on stdout (the summary goes to stderr)");

@@ -34,6 +34,7 @@ struct FrfArgs {
   std::string excitation, stepped, step_freqs;
   double step_s = 0, settle_s = 0, plan_offset_s = 0;
   bool refine_frequency = false;
+  double split = 0;
   std::vector<std::string> scales;
   double confidence = ident::FrfOptions{}.confidence;
   double jitter = ident::ReadOptions{}.jitter_tolerance;
@@ -82,6 +83,7 @@ void run_frf(const FrfArgs& a) {
   o.period = a.period;
   o.confidence = a.confidence;
   o.loop_gain = a.loop_gain;
+  o.holdout_fraction = a.split;
   if (!a.band.empty()) {
     const auto c = a.band.find(':');
     if (c == std::string::npos) throw InputError("--band '" + a.band + "': expected LO:HI in Hz, e.g. 1:500");
@@ -204,6 +206,8 @@ void add_frf_command(CLI::App& app, const std::string& command_line) {
               "(four-parameter fit), for generators whose frequency is not exact");
   c->add_option("--skip-periods", a->skip_periods, "Periodic averaging: leading periods left out as transient "
                 "(default 0; with --excitation, 1 when it has 3 or more periods)");
+  c->add_option("--split", a->split, "Hold out the last fraction F of the record (0 to 0.9): the FRF uses the first "
+                "part only, and 'replay --split F' validates the fitted model on the rest (default 0)");
   c->add_flag("--loop-gain", a->loop_gain, "Injection measurement: --reference is the injected signal, --input the "
               "signal after the injection point, --output the signal returning to it; reports L = -G_ry/G_ru");
   c->add_flag("-q,--quiet", a->quiet, "No summary on stderr");

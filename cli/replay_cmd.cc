@@ -24,6 +24,7 @@ struct ReplayArgs {
   double practical = fit::ReplayOptions{}.practical;
   bool strict = false;
   std::string hold = "measured";
+  double split = 0;
 };
 
 void run_replay(const ReplayArgs& a) {
@@ -45,6 +46,7 @@ void run_replay(const ReplayArgs& a) {
   if (a.lags < 1 || a.lags > 10000) throw InputError("--lags " + std::to_string(a.lags) + ": expected 1 to 10000");
   if (!(a.practical > 0 && a.practical < 1)) throw InputError("--practical " + fmt_num(a.practical) + ": expected a value in (0, 1)");
   o.lags = a.lags;
+  o.holdout_fraction = a.split;
   if (a.hold != "measured" && a.hold != "zoh") throw InputError("--hold '" + a.hold + "' is unknown; expected measured or zoh");
   o.hold = a.hold == "zoh" ? fit::Hold::zoh : fit::Hold::as_measured;
   o.practical = a.practical;
@@ -55,7 +57,8 @@ void run_replay(const ReplayArgs& a) {
             << ")\n"
             << "  " << r.verdict << "\n"
             << "  left out: the first " << r.settle << " samples (" << fmt_num(static_cast<double>(r.settle) / rate)
-            << " s: the model starts at rest); means removed from input and output\n"
+            << (a.split > 0 ? " s: the part used for fitting, --split" : " s: the model starts at rest")
+            << "); means removed from input and output\n"
             << "  residual independence, " << r.samples << " samples, lags 1.." << a.lags << " (whiteness) and -"
             << a.lags << ".." << a.lags << " (input): 99 % bounds " << fmt_num(r.whiteness.bound) << " and "
             << fmt_num(r.cross.bound) << "; a lag fails above max(bound, " << fmt_num(a.practical)
@@ -98,6 +101,8 @@ void add_replay_command(CLI::App& app) {
   c->add_option("--practical", a->practical, "Correlations below this never fail a lag, so long records are not "
                 "failed for negligible correlation (default 0.1)");
   c->add_option("-o,--out", a->out, "CSV of time, measured, simulated and residual output");
+  c->add_option("--split", a->split, "Score only the last fraction F of the record: the part that 'frf --split F' "
+                "left out of the estimate, so the model is validated on data it was not fitted to (default 0: all)");
   c->add_flag("--strict", a->strict, "Exit status 3 when the residual-independence verdict fails");
   c->callback([a] { run_replay(*a); });
 }

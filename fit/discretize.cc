@@ -121,19 +121,8 @@ Discretized discretize(const RationalModel& m, const DiscretizeOptions& o) {
     gain *= ratio.real();
     while (zz.size() < pz.size()) zz.emplace_back(-1.0);
     if (zz.size() > pz.size()) throw InputError("an improper model has no bilinear equivalent");
-    // pole-residue in z: r_i = gain prod(p_i - z_j) / prod_{j != i}(p_i - p_j), direct = gain
-    // (numerator and denominator of equal degree after the bilinear map)
-    RationalModel r;
-    r.domain = Domain::z;
-    for (std::size_t i = 0; i < pz.size(); ++i) {
-      cplx v = gain;
-      for (const cplx& q : zz) v *= pz[i] - q;
-      for (std::size_t j = 0; j < pz.size(); ++j)
-        if (j != i) v /= pz[i] - pz[j];
-      r.poles.push_back(pz[i]);
-      r.residues.push_back(v);
-    }
-    r.direct = gain;
+    // numerator and denominator of equal degree after the bilinear map
+    RationalModel r = from_zpk(Zpk{zz, pz, gain}, Domain::z, t);
     const double samples = std::round(m.delay_s / t);
     out.delay_rounding_s = samples * t - m.delay_s;
     r.delay_s = samples * t;

@@ -169,7 +169,12 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
   } else {
     out.order_reason = "as given";
   }
-  out.result = o.auto_delay ? fit_with_delay_search(out.data, vo, out.delay_first_s) : vector_fit(out.data, vo);
+  if (o.polynomial) {
+    if (o.auto_delay) vo.delay_s = out.delay_first_s;
+    out.result = sk_fit(out.data, vo);
+  } else {
+    out.result = o.auto_delay ? fit_with_delay_search(out.data, vo, out.delay_first_s) : vector_fit(out.data, vo);
+  }
   if (out.result.model.reflected > 0)
     out.warnings.push_back(std::to_string(out.result.model.reflected) +
                            " unstable poles were reflected into the left half plane: this changes the phase and "
@@ -211,17 +216,28 @@ std::string fit_summary(const FrfFit& f, const std::string& source) {
   else s << "  " << m.integrators << " integrator(s): no DC gain\n";
   // roll-off: the model's own slope over the decade above the fitted band
   const double f_top = f.data.freq_hz.back();
-  const double slope = 20 * std::log10(std::abs(m.rational(cplx(0, 20 * std::numbers::pi * f_top))) /
-                                       std::abs(m.rational(cplx(0, 2 * std::numbers::pi * f_top))));
-  s << "  roll-off above the band " << num(slope, 3) << " dB/decade (about " << std::lround(-slope / 20)
-    << " more poles than zeros)\n";
+  if (m.domain == Domain::s) {
+    const double slope = 20 * std::log10(std::abs(m.rational(cplx(0, 20 * std::numbers::pi * f_top))) /
+                                         std::abs(m.rational(cplx(0, 2 * std::numbers::pi * f_top))));
+    s << "  roll-off above the band " << num(slope, 3) << " dB/decade (about " << std::lround(-slope / 20)
+      << " more poles than zeros)\n";
+  } else {
+    s << "  discrete-time model, T = " << num(m.sample_time_s) << " s; poles and zeros shown as their s-plane "
+      << "equivalents ln(z)/T\n";
+  }
   // zeros far beyond the band (numerically placed, no effect in the band) are counted, not listed
   const double far = 100 * 2 * std::numbers::pi * f_top;
   auto list = [&](const char* what, const std::vector<cplx>& v) {
     s << "  " << what << ":\n";
     std::size_t beyond = 0, shown = 0;
-    for (const cplx& p : v) {
-      if (p.imag() < 0) continue;
+    for (const cplx& pz : v) {
+      if (pz.imag() < 0) continue;
+      // z-domain roots shown as s-plane equivalents (a root at z = 0 is a pure delay)
+      if (m.domain == Domain::z && std::abs(pz) == 0) {
+        s << "    at z = 0 (one sample of delay)\n";
+        continue;
+      }
+      const cplx p = m.domain == Domain::z ? std::log(pz) / m.sample_time_s : pz;
       if (std::abs(p) > far) {
         ++beyond;
         continue;

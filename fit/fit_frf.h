@@ -37,6 +37,7 @@ struct FitOptions {
   Weighting weighting = Weighting::inverse_variance;
   double band_lo_hz = 0, band_hi_hz = 0;  // 0: no limit
   double error_floor = 0.1;     // variance weights: eps floored at this fraction of the median
+  bool polynomial = false;      // Sanathanan-Koerner on the polynomial form instead of vector fitting
 };
 
 struct OrderRow {

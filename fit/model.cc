@@ -5,6 +5,8 @@
 #include <limits>
 #include <numbers>
 
+#include "ident/error.h"
+
 namespace benchid::fit {
 
 cplx RationalModel::rational(cplx x) const {
@@ -170,6 +172,30 @@ StateSpace RationalModel::state_space() const {
 double RationalModel::dc_gain() const {
   if (integrators > 0) return std::numeric_limits<double>::quiet_NaN();
   return rational(domain == Domain::s ? cplx(0.0) : cplx(1.0)).real();
+}
+
+RationalModel from_zpk(const Zpk& z, Domain domain, double sample_time_s) {
+  if (z.zeros.size() > z.poles.size())
+    throw benchid::InputError(std::to_string(z.zeros.size()) + " zeros but " + std::to_string(z.poles.size()) +
+                              " poles: an improper transfer function has no pole-residue form here");
+  for (std::size_t i = 0; i < z.poles.size(); ++i)
+    for (std::size_t j = i + 1; j < z.poles.size(); ++j)
+      if (std::abs(z.poles[i] - z.poles[j]) <= 1e-12 * std::max(1.0, std::abs(z.poles[i])))
+        throw benchid::InputError("repeated pole at " + benchid::fmt_num(z.poles[i].real()) + (z.poles[i].imag() != 0 ? "+" + benchid::fmt_num(z.poles[i].imag()) + "j" : "") +
+                                  ": the pole-residue form needs distinct poles");
+  RationalModel m;
+  m.domain = domain;
+  m.sample_time_s = sample_time_s;
+  for (std::size_t i = 0; i < z.poles.size(); ++i) {
+    cplx v = z.gain;
+    for (const cplx& q : z.zeros) v *= z.poles[i] - q;
+    for (std::size_t j = 0; j < z.poles.size(); ++j)
+      if (j != i) v /= z.poles[i] - z.poles[j];
+    m.poles.push_back(z.poles[i]);
+    m.residues.push_back(z.poles[i].imag() == 0 ? cplx(v.real()) : v);
+  }
+  m.direct = z.zeros.size() == z.poles.size() ? z.gain : 0.0;
+  return m;
 }
 
 Mode mode_of(cplx p) {

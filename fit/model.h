@@ -64,6 +64,11 @@ struct RationalModel {
   double dc_gain() const;
 };
 
+// The pole-residue form of k prod(x - z_i)/prod(x - p_i) with distinct poles
+// and no more zeros than poles (cover-up rule: r_i = k prod(p_i - z_j) /
+// prod_{j != i}(p_i - p_j); direct = k when the degrees are equal).
+RationalModel from_zpk(const Zpk& z, Domain domain = Domain::s, double sample_time_s = 0);
+
 // Roots of a polynomial with real coefficients in descending powers
 // (eigenvalues of its companion matrix).
 std::vector<cplx> polynomial_roots(const std::vector<double>& coef);

@@ -135,6 +135,11 @@ ReplayResult replay(const RationalModel& m, const std::vector<double>& u_in, con
   const double settle_s = std::max(o.settle_fraction * static_cast<double>(u.size()) / rate_hz,
                                    o.settle_time_constants * slowest + m.delay_s);
   r.settle = std::min(u.size() / 2, static_cast<std::size_t>(std::ceil(settle_s * rate_hz)));
+  if (o.holdout_fraction > 0) {
+    if (!(o.holdout_fraction <= 0.9)) throw InputError("split: the held-out fraction must be in (0, 0.9]");
+    // the simulation still runs from the start, so the state is right where scoring begins
+    r.settle = std::max(r.settle, static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(u.size()))));
+  }
   std::vector<double> e, ue, yv;
   double ee = 0, yy = 0, ym = 0;
   for (std::size_t k = r.settle; k < u.size(); ++k) ym += y[k];

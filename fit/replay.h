@@ -46,6 +46,7 @@ struct ReplayOptions {
   double practical = 0.1;           // correlations below this never fail a lag
   double settle_fraction = 0.05;    // samples left out at the start: this fraction of the record...
   double settle_time_constants = 5; // ...or 5 time constants of the slowest pole, whichever is larger
+  double holdout_fraction = 0;      // > 0: score only the last part of the record (held out of the fit)
 };
 
 struct CorrelationTest {

@@ -34,6 +34,11 @@ void validate(const VectorFitOptions& o) {
     throw InputError("integrators = " + std::to_string(o.integrators) + ": must be in [0, 4]");
   if (!(o.delay_s >= 0) || !std::isfinite(o.delay_s)) throw InputError("delay = " + fmt_num(o.delay_s) + " s: must be >= 0");
   if (o.max_iterations < 1) throw InputError("max_iterations must be at least 1");
+  if (o.domain == Domain::z) {
+    if (!(o.sample_time_s > 0) || !std::isfinite(o.sample_time_s))
+      throw InputError("sample time = " + fmt_num(o.sample_time_s) + " s: a z-domain fit needs a positive sample time");
+    if (o.improper) throw InputError("a z-domain model has no term in s; expected no --improper");
+  }
 }
 
 namespace {
@@ -42,12 +47,17 @@ using Mat = Eigen::MatrixXd;
 using Vec = Eigen::VectorXd;
 
 // Poles in a canonical order: real ones, then pairs as (a, conj a) with Im a > 0.
-std::vector<cplx> canonical(const std::vector<cplx>& in, bool reflect, int* reflected) {
+// Unstable ones reflected when asked: -conj p in s, 1/conj p in z.
+std::vector<cplx> canonical(const std::vector<cplx>& in, bool reflect, int* reflected, Domain dom = Domain::s) {
   std::vector<cplx> real, upper;
   for (cplx p : in) {
     const double tol = 1e-12 * std::max(1.0, std::abs(p));
-    if (reflect && p.real() > 0) {
+    if (reflect && dom == Domain::s && p.real() > 0) {
       p = cplx(-p.real(), p.imag());
+      if (reflected) ++*reflected;
+    }
+    if (reflect && dom == Domain::z && std::abs(p) > 1) {
+      p = 1.0 / std::conj(p);
       if (reflected) ++*reflected;
     }
     if (std::fabs(p.imag()) <= tol) real.push_back(p.real());
@@ -113,23 +123,28 @@ Vec solve_scaled(Mat& a, const Vec& y, bool rough = false) {
 }
 
 struct Prepared {
-  std::vector<cplx> s, g;   // s_k and the response with integrators and delay removed
+  std::vector<cplx> s, g;   // the variable (s = j w, or z = e^{j w T}) and the response
+                            // with integrators and delay removed
   std::vector<double> w;    // weights for g
+  std::vector<double> omega;  // rad/s
 };
 
 Prepared prepare(const FitData& d, const VectorFitOptions& o) {
   Prepared p;
   for (std::size_t k = 0; k < d.freq_hz.size(); ++k) {
-    const cplx s(0, 2 * std::numbers::pi * d.freq_hz[k]);
-    cplx g = d.h[k] * std::exp(s * o.delay_s);
+    const double om = 2 * std::numbers::pi * d.freq_hz[k];
+    const cplx x = o.domain == Domain::s ? cplx(0, om) : std::polar(1.0, om * o.sample_time_s);
+    cplx g = d.h[k] * std::polar(1.0, om * o.delay_s);
     double w = d.weight[k];
+    const cplx q = o.domain == Domain::s ? x : x - 1.0;
     for (int i = 0; i < o.integrators; ++i) {
-      g *= s;
-      w /= std::abs(s);
+      g *= q;
+      w /= std::abs(q);
     }
-    p.s.push_back(s);
+    p.s.push_back(x);
     p.g.push_back(g);
     p.w.push_back(w);
+    p.omega.push_back(om);
   }
   return p;
 }
@@ -255,7 +270,7 @@ std::vector<cplx> relocate(const Prepared& p, const std::vector<cplx>& poles, co
   Eigen::EigenSolver<Mat> es(h, false);
   std::vector<cplx> z;
   for (Eigen::Index i = 0; i < es.eigenvalues().size(); ++i) z.push_back(es.eigenvalues()(i));
-  return canonical(z, !o.allow_unstable, reflected);
+  return canonical(z, !o.allow_unstable, reflected, o.domain);
 }
 
 std::vector<cplx> starting_poles(int order, double w_lo, double w_hi) {
@@ -308,8 +323,15 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
                      " fit (" + std::to_string(params) + " real parameters); expected at least one line per "
                      "parameter, or a lower --order");
   const Prepared p = prepare(d, o);
-  const double w_lo = std::abs(p.s.front()), w_hi = std::abs(p.s.back());
+  const double w_lo = p.omega.front(), w_hi = p.omega.back();
   std::vector<cplx> poles = starting_poles(o.order, w_lo, w_hi);
+  if (o.domain == Domain::z) {
+    if (w_hi * o.sample_time_s >= std::numbers::pi * (1 + 1e-9))
+      throw InputError("lines above Nyquist of the sample time " + fmt_num(o.sample_time_s) + " s; expected a band below " +
+                       fmt_num(0.5 / o.sample_time_s) + " Hz");
+    for (cplx& q : poles) q = std::exp(q * o.sample_time_s);
+    poles = canonical(poles, false, nullptr, Domain::z);
+  }
   FitResult r;
   int reflected = 0, still = 0;
   double last_res = -1, last_move = 1.0;
@@ -346,7 +368,78 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
   fit_residues(p, poles, o, r.model);
   r.model.integrators = o.integrators;
   r.model.delay_s = o.delay_s;
+  r.model.domain = o.domain;
+  r.model.sample_time_s = o.domain == Domain::z ? o.sample_time_s : 0.0;
   r.model.reflected = reflected;
+  score(r, d);
+  return r;
+}
+
+FitResult sk_fit(const FitData& d, const VectorFitOptions& o) {
+  validate(o);
+  if (o.domain != Domain::s || o.integrators != 0 || o.improper)
+    throw InputError("the polynomial method fits s-domain models without integrators or a term in s; use vector fitting");
+  const std::size_t lines = d.freq_hz.size();
+  const auto n = static_cast<Eigen::Index>(o.order);
+  const Eigen::Index nnum = o.proper ? n + 1 : n;  // numerator coefficients
+  if (lines < static_cast<std::size_t>(nnum + n)) throw InputError(std::to_string(lines) + " lines cannot carry an order-" + std::to_string(o.order) + " polynomial fit");
+  const Prepared p = prepare(d, o);
+  const double w0 = p.omega.back();  // s' = s / w0
+  std::vector<double> dprev(lines, 1.0);
+  Vec coef;
+  std::vector<cplx> poles;
+  FitResult r;
+  for (int it = 0; it < o.max_iterations; ++it) {
+    Mat a(static_cast<Eigen::Index>(2 * lines), nnum + n);
+    Vec y(static_cast<Eigen::Index>(2 * lines));
+    for (std::size_t k = 0; k < lines; ++k) {
+      const cplx s = p.s[k] / w0;
+      const double w = p.w[k] / dprev[k];
+      const auto row = static_cast<Eigen::Index>(2 * k);
+      cplx sp = 1.0;
+      for (Eigen::Index i = 0; i < std::max(nnum, n); ++i) {
+        if (i < nnum) a(row, i) = w * sp.real(), a(row + 1, i) = w * sp.imag();
+        if (i < n) {
+          const cplx t = -p.g[k] * sp;
+          a(row, nnum + i) = w * t.real(), a(row + 1, nnum + i) = w * t.imag();
+        }
+        sp *= s;
+      }
+      // monic D: the s^n term moves to the right-hand side
+      cplx sn = 1.0;
+      for (Eigen::Index i = 0; i < n; ++i) sn *= s;
+      const cplx rhs = p.g[k] * sn;
+      y(row) = w * rhs.real();
+      y(row + 1) = w * rhs.imag();
+    }
+    coef = solve_scaled(a, y);
+    std::vector<double> den(static_cast<std::size_t>(n) + 1);  // descending, in s'
+    den[0] = 1.0;
+    for (Eigen::Index i = 0; i < n; ++i) den[static_cast<std::size_t>(n - i)] = coef(nnum + i);
+    std::vector<cplx> roots = polynomial_roots(den);
+    for (cplx& q : roots) q *= w0;
+    int refl = 0;
+    const std::vector<cplx> next = canonical(roots, !o.allow_unstable, &refl);
+    r.model.reflected = refl;
+    double move = next.size() == poles.size() ? 0.0 : 1.0;
+    if (next.size() == poles.size())
+      for (std::size_t i = 0; i < next.size(); ++i) move = std::max(move, std::abs(next[i] - poles[i]) / std::abs(next[i]));
+    poles = next;
+    r.iterations = it + 1;
+    for (std::size_t k = 0; k < lines; ++k) {
+      cplx dv = 1.0;
+      for (const cplx& q : poles) dv *= (p.s[k] - q) / w0;
+      dprev[k] = std::max(std::abs(dv), 1e-300);
+    }
+    if (move < std::max(o.tolerance, 1e-10)) {
+      r.converged = true;
+      break;
+    }
+  }
+  const int refl = r.model.reflected;
+  fit_residues(p, poles, o, r.model);
+  r.model.reflected = refl;
+  r.model.delay_s = o.delay_s;
   score(r, d);
   return r;
 }

@@ -12,8 +12,10 @@
 // the next poles. Unstable poles are reflected (p -> -conj p) unless allowed.
 // Converged when no pole moves by more than `tolerance` relative to its
 // magnitude. The residues, d and h then come from a last linear fit.
-// Known structure is removed first: the data is multiplied by s^K for K
-// integrators and by e^{+s T} for a known delay T; the model divides them back.
+// Known structure is removed first: the data is multiplied by s^K (z: (z-1)^K)
+// for K integrators and by e^{+j w T} for a known delay T; the model divides
+// them back. In z the same iteration runs with x = e^{j w T_s} in place of s
+// (starting poles e^{a T_s} of the s-plane ones).
 #pragma once
 
 #include <string>
@@ -34,6 +36,9 @@ struct VectorFitOptions {
   bool improper = false;        // also a term h s
   bool allow_unstable = false;  // keep right-half-plane poles instead of reflecting them
   double delay_s = 0;           // known pure delay, >= 0
+  Domain domain = Domain::s;    // s: partial fractions in s; z: in z = e^{j w T} (poles inside the
+                                // unit circle; unstable ones reflected to 1/conj(p))
+  double sample_time_s = 0;     // T, domain z only
   int max_iterations = 50;      // pole relocations
   double tolerance = 1e-9;      // convergence: largest relative pole move
 };
@@ -60,6 +65,15 @@ struct FitResult {
 };
 
 FitResult vector_fit(const FitData& data, const VectorFitOptions& o);
+
+// Sanathanan & Koerner (IEEE Trans. Autom. Control 8, 1963): H ~ N(s)/D(s)
+// with D monic of degree `order`, each pass a linear least-squares fit of
+// N - H D weighted by w / |D_prev| (Levy's linearisation with the bias
+// removed by iteration), s scaled by the band's top for conditioning; the
+// poles are the roots of D, the residues then as in vector fitting. The
+// polynomial basis is ill-conditioned beyond modest orders (about 10): it is
+// the second method, for comparison (s domain, no integrators or improper term).
+FitResult sk_fit(const FitData& data, const VectorFitOptions& o);
 // Figures of merit of a model against data (fills chi2, dof, nrmse, max errors).
 void score(FitResult& r, const FitData& data);
 

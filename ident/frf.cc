@@ -54,6 +54,8 @@ void validate(const FrfOptions& o) {
     throw InputError("confidence = " + num(o.confidence) + ": must be in [0.5, 0.9999]");
   if (o.period == 1) throw InputError("period = 1: must be at least 2 samples");
   if (o.block_frames < 1) throw InputError("block_frames = 0: must be at least 1");
+  if (!(o.holdout_fraction >= 0 && o.holdout_fraction <= 0.9))
+    throw InputError("split = " + num(o.holdout_fraction) + ": the held-out fraction must be in [0, 0.9]");
 }
 
 double frf_magnitude_error(double gamma2, double n_d) {
@@ -357,12 +359,21 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   std::vector<std::vector<double>> block;
   Frf f;
   std::size_t samples = 0;
+  // with a hold-out, only the first (1 - fraction) of the record is read
+  std::size_t limit = static_cast<std::size_t>(-1);
+  if (o.holdout_fraction > 0)
+    limit = static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(reader.count_frames())));
+  auto next_block = [&]() -> std::size_t {
+    if (samples >= limit) return 0;
+    std::size_t n = reader.read_block(std::min(o.block_frames, limit - samples), block);
+    return n;
+  };
   if (periodic) {
     PeriodicAccumulator acc(period, 2, o.skip_periods);
     // for harmonic distortion: the first period that is averaged
     std::vector<double> hu, hy;
     const std::size_t h_from = o.skip_periods * period, h_to = h_from + period;
-    while (reader.read_block(o.block_frames, block) > 0) {
+    while (next_block() > 0) {
       if (o.log_sweep && samples < h_to && samples + block[0].size() > h_from) {
         const std::size_t a = std::max(h_from, samples) - samples, b = std::min(h_to, samples + block[0].size()) - samples;
         hu.insert(hu.end(), block[0].begin() + static_cast<long>(a), block[0].begin() + static_cast<long>(b));
@@ -395,7 +406,7 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
       f.warnings.push_back(std::to_string(samples % period) + " trailing samples (less than one period) left out");
   } else {
     WelchAccumulator acc(o.welch, sel.size());
-    while (reader.read_block(o.block_frames, block) > 0) {
+    while (next_block() > 0) {
       samples += block[0].size();
       acc.push(block);
     }
@@ -429,6 +440,9 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   }
   f.source = info.path;
   f.samples = samples;
+  if (o.holdout_fraction > 0)
+    f.warnings.push_back("the last " + num(100 * o.holdout_fraction, 3) + " % of the record was held out (samples " +
+                         std::to_string(samples) + " on), for validation with replay --split");
   f.input = info.channels[sel[0]].name;
   f.input_unit = info.channels[sel[0]].unit;
   f.output = info.channels[sel[1]].name;

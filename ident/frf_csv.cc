@@ -142,6 +142,7 @@ Frf read_frf_csv(const std::string& path) {
   f.segment = static_cast<std::size_t>(getd("segment", 0));
   f.overlap = getd("overlap", 0);
   f.averages = static_cast<std::size_t>(getd("averages", 0));
+  f.samples = static_cast<std::size_t>(getd("samples", 0));
   f.effective_averages = getd("effective_averages", static_cast<double>(f.averages));
   f.coherence_bound = getd("coherence_bound", 1.0);
   f.confidence = getd("confidence", 0.95);

@@ -102,6 +102,35 @@ TEST(FitCli, NonConvergenceExitsOneWithAdvice) {
 
 namespace {
 
+TEST(ReplayCli, SplitValidatesOnTheHeldOutPart) {
+  // frf --split 0.25 reads the first 75 %; replay --split 0.25 scores the rest
+  TempDir d;
+  benchid::test::Gaussian g(8);
+  const auto u = g.take(40000);
+  const auto y = benchid::test::Biquad::butterworth_lowpass(0.05).filter(u);
+  std::string s = "# rate_hz=1000\nu,y\n";
+  char b[80];
+  for (std::size_t k = 0; k < u.size(); ++k) {
+    std::snprintf(b, sizeof b, "%.12g,%.12g\n", u[k], y[k] + 0.001 * g());
+    s += b;
+  }
+  const std::string rec = d.write("rec.csv", s);
+  Outcome r = run(d, "frf " + rec + " --input u --output y --segment 1024 --split 0.25 -o " + d.file("frf.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_EQ(benchid::ident::read_frf_csv(d.file("frf.csv")).samples, 30000u);
+  // the plant is a digital filter: fitted in z it is exact, so what is left
+  // in the held-out residual is the white measurement noise
+  r = run(d, "fit " + d.file("frf.csv") + " --order 2 --domain z --sample-time 0.001 -q -o " + d.file("m.json"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  r = run(d, "replay " + d.file("m.json") + " " + rec + " --input u --output y --split 0.25");
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_NE(r.out.find("on 10000 samples"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("residual independence: pass"), std::string::npos) << r.out;
+  r = run(d, "frf " + rec + " --input u --output y --split 0.95");
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("must be in [0, 0.9]"), std::string::npos) << r.err;
+}
+
 TEST(ReplayCli, ModelOnItsOwnRecordMatchesAndWrongModelFailsStrict) {
   // a record made by the model itself (hold simulation, 1 % noise), replayed
   TempDir d;

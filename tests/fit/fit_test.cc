@@ -118,6 +118,18 @@ TEST(Model, ConversionsMatchScipyInvresFreqsAndRoots) {
   }
 }
 
+TEST(Model, PoleResidueRoundTripsThroughZerosPolesGain) {
+  // pole-residue -> zpk -> pole-residue (cover-up rule) [D]: residues and the
+  // direct term come back to 1e-9 (the zeros are roots of a degree-6 polynomial)
+  const RationalModel m = scipy_model();
+  const RationalModel back = from_zpk(m.zpk());
+  ASSERT_EQ(back.poles.size(), m.poles.size());
+  for (std::size_t i = 0; i < m.poles.size(); ++i) EXPECT_CLOSE(back.residues[i], m.residues[i], 1e-9) << i;
+  EXPECT_CLOSE(back.direct, m.direct, 1e-9);
+  EXPECT_THROW(from_zpk(Zpk{{1.0, 2.0}, {-1.0}, 1.0}), benchid::InputError);     // improper
+  EXPECT_THROW(from_zpk(Zpk{{}, {-1.0, -1.0}, 1.0}), benchid::InputError);      // repeated pole
+}
+
 TEST(Model, IntegratorsAreExactInEveryForm) {
   RationalModel m;
   m.poles = {{-3, 40}, {-3, -40}};
@@ -588,6 +600,67 @@ TEST(Discretize, SectionsAndDelayReproduceTheExactHoldSimulation) {
     worst = std::max(worst, std::fabs(ys[k] - yr[k]));
   }
   EXPECT_LT(worst, 1e-10 * peak);
+}
+
+}  // namespace
+
+namespace {
+
+TEST(VectorFit, FitsADiscreteTimeSystemInZ) {
+  // a known difference equation: the bilinear Butterworth low-pass of
+  // tests/support (common practice), fitted directly in z at order 2
+  const benchid::test::Biquad lp = benchid::test::Biquad::butterworth_lowpass(0.1);
+  const double rate = 1000;
+  FitData d;
+  for (int k = 1; k <= 200; ++k) {
+    const double f = 0.5 + (rate / 2 - 1) * k / 200.0;
+    d.freq_hz.push_back(f);
+    d.h.push_back(lp.response(f / rate));
+    d.weight.push_back(1.0 / std::abs(d.h.back()));
+  }
+  VectorFitOptions o;
+  o.order = 2;
+  o.domain = Domain::z;
+  o.sample_time_s = 1 / rate;
+  const FitResult r = vector_fit(d, o);
+  // poles of 1 + a1 z^-1 + a2 z^-2 [D]
+  const std::vector<cplx> truth = polynomial_roots({1.0, lp.a1, lp.a2});
+  EXPECT_LT(pole_error(truth, r.model.poles), 1e-9);
+  EXPECT_EQ(r.model.domain, Domain::z);
+  for (double f : {3.0, 77.0, 410.0}) EXPECT_CLOSE(r.model.response(f), lp.response(f / rate), 1e-9);
+  // a discretised continuous plant comes back too
+  DiscretizeOptions zo;
+  zo.sample_time_s = 1e-3;
+  const RationalModel zm = discretize(third_order(), zo).model;
+  FitData d2;
+  for (int k = 1; k <= 300; ++k) {
+    const double f = 0.2 + 499.0 * k / 300.0;
+    d2.freq_hz.push_back(f);
+    d2.h.push_back(zm.response(f));
+    d2.weight.push_back(1.0 / std::abs(d2.h.back()));
+  }
+  o.order = 3;
+  o.sample_time_s = 1e-3;
+  EXPECT_LT(pole_error(zm.poles, vector_fit(d2, o).model.poles), 1e-8);
+}
+
+TEST(SkFit, AgreesWithVectorFittingOnAKnownPlant) {
+  // the second method must find the same model (noise-free, low order)
+  const RationalModel t = two_mass(0.08, 22, 0.03, 31, 0.04, 40);
+  const FitData d = sample(t, 0.1, 300, 300);
+  VectorFitOptions o;
+  o.order = 3;
+  o.proper = false;
+  const FitResult vf = vector_fit(d, o), sk = sk_fit(d, o);
+  EXPECT_TRUE(sk.converged);
+  EXPECT_LT(pole_error(vf.model.poles, sk.model.poles), 1e-6);
+  EXPECT_LT(pole_error(t.poles, sk.model.poles), 1e-6);
+  EXPECT_THROW(sk_fit(d, [] {
+                 VectorFitOptions b;
+                 b.integrators = 1;
+                 return b;
+               }()),
+               benchid::InputError);
 }
 
 }  // namespace
