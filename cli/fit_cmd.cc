@@ -70,11 +70,9 @@ void run_fit(const FitArgs& a) {
     o.vf.delay_s = parse_number(a.delay, "--delay");
   }
   if (!a.band.empty()) {
-    const auto c = a.band.find(':');
-    if (c == std::string::npos) throw InputError("--band '" + a.band + "': expected LO:HI in Hz");
-    o.band_lo_hz = c == 0 ? 0 : parse_number(a.band.substr(0, c), "--band LO");
-    o.band_hi_hz = c + 1 == a.band.size() ? 0 : parse_number(a.band.substr(c + 1), "--band HI");
-    if (o.band_hi_hz > 0 && o.band_hi_hz <= o.band_lo_hz) throw InputError("--band " + a.band + ": LO must be below HI");
+    const Band b = parse_band(a.band, "--band");
+    o.band_lo_hz = b.lo_hz;
+    o.band_hi_hz = b.hi_hz;
   }
   const fit::FrfFit f = fit::fit_frf(frf, o);
   const std::string summary = fit::fit_summary(f, a.frf);

@@ -85,10 +85,9 @@ void run_frf(const FrfArgs& a) {
   o.loop_gain = a.loop_gain;
   o.holdout_fraction = a.split;
   if (!a.band.empty()) {
-    const auto c = a.band.find(':');
-    if (c == std::string::npos) throw InputError("--band '" + a.band + "': expected LO:HI in Hz, e.g. 1:500");
-    o.band_lo_hz = c == 0 ? 0 : parse_number(a.band.substr(0, c), "--band LO");
-    o.band_hi_hz = c + 1 == a.band.size() ? 0 : parse_number(a.band.substr(c + 1), "--band HI");
+    const Band b = parse_band(a.band, "--band");
+    o.band_lo_hz = b.lo_hz;
+    o.band_hi_hz = b.hi_hz;
   }
   ident::Frf f;
   if (stepped) {

@@ -4,8 +4,8 @@
 #include <algorithm>
 #include <cmath>
 #include <numbers>
-#include <unsupported/Eigen/MatrixFunctions>
 
+#include "fit/detail/hold.h"
 #include "ident/error.h"
 
 namespace benchid::fit {
@@ -63,33 +63,20 @@ Discretized discretize(const RationalModel& m, const DiscretizeOptions& o) {
   if (o.method == Discretization::zoh) {
     if (m.integrators > 1)
       throw InputError("zoh of more than one integrator is not supported yet (repeated poles at z = 1)");
-    const StateSpace ss = m.state_space();
-    const auto n = static_cast<Eigen::Index>(ss.b.size());
+    const detail::EigenStateSpace ss = detail::to_eigen(m.state_space());
+    const Eigen::Index n = ss.a.rows();
     const double samples = m.delay_s / t;
     const auto whole = static_cast<long>(std::floor(samples + 1e-9));
     const double frac = samples - static_cast<double>(whole);
     const bool extra = frac > 1e-9;
     const Eigen::Index nn = n + (extra ? 1 : 0);
-    Mat a(n, n);
-    Vec b(n), c(n);
-    for (Eigen::Index i = 0; i < n; ++i) {
-      for (Eigen::Index j = 0; j < n; ++j) a(i, j) = ss.a[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)];
-      b(i) = ss.b[static_cast<std::size_t>(i)];
-      c(i) = ss.c[static_cast<std::size_t>(i)];
-    }
-    auto hold = [&](double tau) {
-      Mat big = Mat::Zero(n + 1, n + 1);
-      big.topLeftCorner(n, n) = a * tau;
-      big.topRightCorner(n, 1) = b * tau;
-      const Mat e = big.exp();
-      return std::pair<Mat, Vec>{e.topLeftCorner(n, n), e.topRightCorner(n, 1)};
-    };
+    auto hold = [&](double tau) { return detail::hold(ss.a, ss.b, tau); };
     Mat ad = Mat::Zero(nn, nn);
     Vec bd = Vec::Zero(nn), cd = Vec::Zero(nn);
     double dd = ss.d;
     const auto [phi, gam] = hold(t);
     ad.topLeftCorner(n, n) = phi;
-    cd.head(n) = c;
+    cd.head(n) = ss.c;
     if (!extra) {
       bd.head(n) = gam;
     } else {

@@ -1,11 +1,10 @@
 #include "fit/model_json.h"
 
 #include <cmath>
-#include <fstream>
 #include <nlohmann/json.hpp>
-#include <sstream>
 
 #include "ident/error.h"
+#include "ident/json_file.h"
 
 namespace benchid::fit {
 
@@ -61,19 +60,7 @@ std::string model_json(const RationalModel& m, const FitSummary* fit) {
 }
 
 RationalModel read_model_json(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError("cannot open '" + path + "': no such file or not readable");
-  std::stringstream ss;
-  ss << in.rdbuf();
-  const std::string text = ss.str();
-  json j;
-  try {
-    j = json::parse(text);
-  } catch (const json::parse_error& e) {
-    long line = 1;
-    for (std::size_t i = 0; i < e.byte && i < text.size(); ++i) line += text[i] == '\n';
-    throw InputError(where(path, line) + "not valid JSON; expected a model from 'benchid fit'");
-  }
+  const json j = read_json_file(path, "a model from 'benchid fit'");
   auto bad = [&](const std::string& w) { throw InputError(where(path) + w); };
   if (!j.is_object() || j.value("format", "") != "benchid.model/1")
     bad("\"format\" is not \"benchid.model/1\"; expected a model from 'benchid fit'");

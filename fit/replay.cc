@@ -5,8 +5,8 @@
 #include <algorithm>
 #include <cmath>
 #include <sstream>
-#include <unsupported/Eigen/MatrixFunctions>
 
+#include "fit/detail/hold.h"
 #include "ident/error.h"
 
 namespace benchid::fit {
@@ -15,16 +15,6 @@ using Mat = Eigen::MatrixXd;
 using Vec = Eigen::VectorXd;
 
 namespace {
-
-// exp([A b; 0 0] t): returns (e^{A t}, int_0^t e^{A s} ds b)
-std::pair<Mat, Vec> hold(const Mat& a, const Vec& b, double t) {
-  const Eigen::Index n = a.rows();
-  Mat m = Mat::Zero(n + 1, n + 1);
-  m.topLeftCorner(n, n) = a * t;
-  m.topRightCorner(n, 1) = b * t;
-  const Mat e = m.exp();
-  return {e.topLeftCorner(n, n), e.topRightCorner(n, 1)};
-}
 
 std::vector<double> correlation(const std::vector<double>& a, const std::vector<double>& b, long lag_lo, long lag_hi) {
   // rho_ab(tau) = sum_t a(t) b(t - tau) / sqrt(sum a^2 sum b^2)
@@ -56,23 +46,19 @@ std::vector<double> simulate(const RationalModel& m, const std::vector<double>& 
   if (m.domain != Domain::s) throw InputError("replay of a z-domain model is not supported yet; expected an s-domain model");
   if (m.proportional != 0) throw InputError("replay of an improper model (a term in s) is not possible: it differentiates the held input");
   const double ts = 1.0 / rate_hz;
-  const StateSpace ss = m.state_space();
-  const auto n = static_cast<Eigen::Index>(ss.b.size());
-  Mat a(n, n);
-  Vec b(n), c(n);
-  for (Eigen::Index i = 0; i < n; ++i) {
-    for (Eigen::Index j = 0; j < n; ++j) a(i, j) = ss.a[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)];
-    b(i) = ss.b[static_cast<std::size_t>(i)];
-    c(i) = ss.c[static_cast<std::size_t>(i)];
-  }
+  const detail::EigenStateSpace ss = detail::to_eigen(m.state_space());
+  const Eigen::Index n = ss.a.rows();
+  const Mat& a = ss.a;
+  const Vec& b = ss.b;
+  const Vec& c = ss.c;
   const double samples_delay = m.delay_s * rate_hz;
   const auto whole = static_cast<long>(std::floor(samples_delay + 1e-12));
   const double frac = samples_delay - static_cast<double>(whole);
-  const auto [ad, bfull] = hold(a, b, ts);
+  const auto [ad, bfull] = detail::hold(a, b, ts);
   Vec b1 = bfull, b2 = Vec::Zero(n);
   if (frac > 1e-12) {
-    const auto [ea, i1] = hold(a, b, (1 - frac) * ts);
-    const auto [unused, i2] = hold(a, b, frac * ts);
+    const auto [ea, i1] = detail::hold(a, b, (1 - frac) * ts);
+    const auto [unused, i2] = detail::hold(a, b, frac * ts);
     (void)unused;
     b1 = i1;
     b2 = ea * i2;

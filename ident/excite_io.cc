@@ -9,6 +9,7 @@
 #include <sstream>
 
 #include "ident/error.h"
+#include "ident/json_file.h"
 
 namespace benchid::ident {
 
@@ -144,21 +145,7 @@ std::size_t count(const json& j, const char* key, const std::string& path, bool 
 }  // namespace
 
 Sidecar read_sidecar(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError("cannot open '" + path + "': no such file or not readable");
-  std::stringstream ss;
-  ss << in.rdbuf();
-  const std::string text = ss.str();
-  if (text.size() > (64u << 20)) bad(path, "larger than 64 MiB; expected an excitation sidecar or plan");
-  json j;
-  try {
-    j = json::parse(text);
-  } catch (const json::parse_error& e) {
-    long line = 1;
-    for (std::size_t i = 0; i < e.byte && i < text.size(); ++i) line += text[i] == '\n';
-    throw InputError(where(path, line) + "not valid JSON (" + std::string(e.what()).substr(0, 120) +
-                     "); expected a benchid excitation sidecar or plan");
-  }
+  json j = read_json_file(path, "a benchid excitation sidecar or plan");
   if (!j.is_object() || !j.contains("format") || j["format"] != "benchid.excitation/1")
     bad(path, "\"format\" is not \"benchid.excitation/1\"; expected a sidecar or plan from 'benchid excite'");
   Sidecar s;
