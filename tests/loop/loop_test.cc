@@ -1,0 +1,179 @@
+// Controllers from specs, and margins against the values of
+// ../shared/reference/CHECK_VALUES.md section 5 (SciPy dense grid + root
+// refinement, exact forms where given) and the Ms bounds of Astrom & Murray.
+#include <gtest/gtest.h>
+
+#include <cmath>
+
+#include "fit/discretize.h"
+#include "ident/error.h"
+#include "loop/controller.h"
+#include "loop/margins.h"
+#include "tests/support/expect_close.h"
+
+using namespace benchid::loop;
+using benchid::fit::cplx;
+using benchid::fit::RationalModel;
+using benchid::fit::Zpk;
+
+namespace {
+
+constexpr double kTwoPi = 2 * M_PI;
+
+RationalModel plant(std::vector<cplx> poles, double k, double delay_s = 0) {
+  RationalModel m = benchid::fit::from_zpk(Zpk{{}, poles, k});
+  m.delay_s = delay_s;
+  return m;
+}
+
+struct Case {
+  const char* name;
+  std::vector<cplx> poles;
+  double k, delay;
+  double wc, pm, w180, gm_db, dm, ms;  // CHECK_VALUES.md s.5 [S]; gm_db inf when none
+};
+void PrintTo(const Case& c, std::ostream* os) { *os << c.name; }
+
+class TextbookLoops : public ::testing::TestWithParam<Case> {};
+
+TEST_P(TextbookLoops, MarginsMatchCheckValues) {
+  const Case& c = GetParam();
+  // the loop in product form k e^{-sT} / prod(s - p), exact for repeated poles
+  const LoopFn loop = [&](double f) {
+    const cplx s(0, kTwoPi * f);
+    cplx v = c.k * std::exp(-s * c.delay);
+    for (const cplx& p : c.poles) v /= s - p;
+    return v;
+  };
+  const Margins m = margins(loop, 1e-4, 1e3, 20000);
+  // the table prints 6-7 significant digits: tolerances of one unit there
+  EXPECT_NEAR(m.crossover_hz * kTwoPi, c.wc, 2e-6 * c.wc);
+  EXPECT_NEAR(m.phase_margin_deg, c.pm, 1e-4);
+  if (std::isinf(c.gm_db)) {
+    EXPECT_TRUE(std::isinf(m.gain_margin_db));
+  } else {
+    EXPECT_NEAR(m.gain_margin_hz * kTwoPi, c.w180, 1e-6 * c.w180);
+    EXPECT_NEAR(m.gain_margin_db, c.gm_db, 1e-4);
+  }
+  EXPECT_NEAR(m.delay_margin_s, c.dm, 1e-6 * c.dm + 1e-6);
+  EXPECT_NEAR(m.ms, c.ms, 1e-5 * c.ms);
+  // Astrom & Murray: |1 + L| >= 1/Ms gives GM >= Ms/(Ms - 1), PM >= 2 asin(1/(2 Ms)) [D]
+  EXPECT_GE(std::pow(10.0, m.gain_margin_db / 20), m.ms / (m.ms - 1) * (1 - 1e-9));
+  EXPECT_GE(m.phase_margin_deg, 2 * std::asin(1 / (2 * m.ms)) * 180 / M_PI - 1e-9);
+}
+
+const double kInf = std::numeric_limits<double>::infinity();
+INSTANTIATE_TEST_SUITE_P(
+    CheckValues5, TextbookLoops,
+    ::testing::Values(
+        Case{"K1_s_s1_s2", {0.0, -1.0, -2.0}, 1, 0, 0.445748, 53.4108, std::sqrt(2.0), 20 * std::log10(6.0), 2.091303, 1.56838},
+        Case{"K2_s_s1_s2", {0.0, -1.0, -2.0}, 2, 0, 0.749368, 32.6131, std::sqrt(2.0), 20 * std::log10(3.0), 0.759581, 2.31231},
+        Case{"K4_s_s1_s2", {0.0, -1.0, -2.0}, 4, 0, 1.143203, 11.4250, std::sqrt(2.0), 20 * std::log10(1.5), 0.174425, 5.87516},
+        Case{"K10_s_s1_s5", {0.0, -1.0, -5.0}, 10, 0, 1.227064, 25.3898, std::sqrt(5.0), 20 * std::log10(3.0), 0.361135, 2.71558},
+        Case{"K4_s1sq", {-1.0, -1.0}, 4, 0, std::sqrt(3.0), 60.0, 0, kInf, 0.604600, std::sqrt(2.0)},
+        Case{"K4_s1cube", {-1.0, -1.0, -1.0}, 4, 0, 1.232819, 27.1416, std::sqrt(3.0), 20 * std::log10(2.0), 0.384250, 3.0},
+        Case{"delay_over_s", {0.0}, 1, 0.5, 1.0, 61.3521, M_PI, 20 * std::log10(M_PI), M_PI / 2 - 0.5, 1.59049}),
+    [](const auto& i) { return std::string(i.param.name); });
+TEST(Margins, ModelPlantGivesTheSameMarginsAsItsFormula) {
+  // 10/(s(s+1)(s+5)) as a fitted-model plant (pole-residue form) and a
+  // controller from a spec: the same figures as the product form above
+  const Margins m = model_margins(plant({0.0, -1.0, -5.0}, 10.0), parse_controller("gain:k=1"));
+  EXPECT_NEAR(m.crossover_hz * kTwoPi, 1.227064, 2e-6);
+  EXPECT_NEAR(m.phase_margin_deg, 25.3898, 1e-4);
+  EXPECT_NEAR(m.gain_margin_db, 20 * std::log10(3.0), 1e-4);
+  EXPECT_NEAR(m.ms, 2.71558, 3e-5);
+}
+
+TEST(Margins, StandardSecondOrderLoopFollowsTheExactPhaseMarginFormula) {
+  // L = wn^2/(s(s + 2 zeta wn)): wc/wn = sqrt(sqrt(1 + 4 zeta^4) - 2 zeta^2),
+  // PM = atan(2 zeta / (wc/wn)) [D], tabulated in CHECK_VALUES.md s.5
+  const double zeta_pm[][2] = {{0.1, 11.421}, {0.3, 33.272}, {0.5, 51.827}, {0.7071, 65.530}, {1.0, 76.345}};
+  for (const auto& [zeta, pm_table] : zeta_pm) {
+    const double wn = 3.0;
+    const Margins m = model_margins(plant({0.0, -2 * zeta * wn}, wn * wn), parse_controller("gain:k=1"));
+    const double x = std::sqrt(std::sqrt(1 + 4 * std::pow(zeta, 4)) - 2 * zeta * zeta);
+    EXPECT_NEAR(m.crossover_hz * kTwoPi / wn, x, 1e-9) << zeta;
+    EXPECT_NEAR(m.phase_margin_deg, std::atan(2 * zeta / x) * 180 / M_PI, 1e-7) << zeta;
+    EXPECT_NEAR(m.phase_margin_deg, pm_table, 1e-3) << zeta;  // printed to 3 decimals
+    EXPECT_TRUE(std::isinf(m.gain_margin_db));
+  }
+}
+
+TEST(Margins, ZohDiscretisedPlantMatchesCheckValues) {
+  // ZOH of 1/(s(s+1)), Ts = 0.1 s, unity gain: wc 0.7860, PM 49.58 deg,
+  // w180 4.4357, GM 26.17 dB, Ms 1.5377 (CHECK_VALUES.md s.5 [S]; 0.01 deg / 0.01 dB)
+  benchid::fit::DiscretizeOptions o;
+  o.sample_time_s = 0.1;
+  const RationalModel pz = benchid::fit::discretize(plant({0.0, -1.0}, 1.0), o).model;
+  const Margins m = model_margins(pz, parse_controller("gain:k=1"));
+  EXPECT_NEAR(m.crossover_hz * kTwoPi, 0.7860, 5e-5);
+  EXPECT_NEAR(m.phase_margin_deg, 49.58, 0.01);
+  EXPECT_NEAR(m.gain_margin_hz * kTwoPi, 4.4357, 5e-5);
+  EXPECT_NEAR(m.gain_margin_db, 26.17, 0.01);
+  EXPECT_NEAR(m.ms, 1.5377, 5e-5);
+}
+
+TEST(Margins, TrackingErrorFactOfTheTrade) {
+  // |S| = 1/|1 + L|: a loop gain of 100 leaves about 1 % error (1/(1 + 100) = 0.990 %,
+  // CHECK_VALUES.md s.9 [D]); here a proportional loop on a first-order plant at DC
+  const RationalModel p = plant({-1.0}, 1.0);
+  const Controller c = parse_controller("gain:k=100");
+  const cplx l = p.response(1e-6) * c.model.response(1e-6);
+  EXPECT_NEAR(std::abs(1.0 / (1.0 + l)), 1 / 101.0, 1e-9);
+}
+
+TEST(Controller, PidWithFilterIsTheParallelForm) {
+  // kp + ki/s + kd s/(tf s + 1) at a few frequencies [D]
+  const Controller c = parse_controller("pid:kp=2,ki=10,kd=0.05,tf=0.002");
+  for (double f : {0.1, 5.0, 80.0, 2000.0}) {
+    const cplx s(0, kTwoPi * f);
+    EXPECT_CLOSE(c.model.response(f), 2.0 + 10.0 / s + 0.05 * s / (0.002 * s + 1.0), 1e-12) << f;
+  }
+  EXPECT_CLOSE(parse_controller("pid:kp=3").model.response(7.0), cplx(3.0), 1e-15);
+}
+
+TEST(Controller, FormsAndProductsFollowTheGrammar) {
+  // poly:num=0.02,1;den=1,0 is (0.02 s + 1)/s (DESIGN.md)
+  const Controller p = parse_controller("poly:num=0.02,1;den=1,0");
+  const cplx s(0, kTwoPi * 3.0);
+  EXPECT_CLOSE(p.model.response(3.0), (0.02 * s + 1.0) / s, 1e-12);
+  // lead: k (s/wz + 1)/(s/wp + 1); notch: depth at its centre; roots with a complex pair
+  const Controller l = parse_controller("lead:z=10,p=100,k=2");
+  EXPECT_NEAR(std::abs(l.model.response(1e-6)), 2.0, 1e-9);
+  EXPECT_NEAR(std::abs(l.model.response(1e6)), 20.0, 1e-3);
+  const Controller n = parse_controller("notch:f=50,width=10,depth=20");
+  EXPECT_NEAR(20 * std::log10(std::abs(n.model.response(50))), -20.0, 1e-9);
+  EXPECT_NEAR(std::abs(n.model.response(0.01)), 1.0, 1e-6);
+  const Controller r = parse_controller("roots:zeros=-5;poles=-1+2j,-30;k=4");
+  const cplx s2(0, kTwoPi * 0.7);
+  EXPECT_CLOSE(r.model.response(0.7), 4.0 * (s2 + 5.0) / ((s2 - cplx(-1, 2)) * (s2 - cplx(-1, -2)) * (s2 + 30.0)), 1e-12);
+  // a product multiplies
+  const Controller pr = parse_controller("gain:k=3*lead:z=10,p=100");
+  EXPECT_CLOSE(pr.model.response(20), 3.0 * l.model.response(20) / 2.0, 1e-12);
+  // @dt: Tustin, exact at DC, delay carried
+  const Controller d = parse_controller("pid:kp=1,ki=5,kd=0.01,tf=0.001@dt=0.0005,delay=0.0005");
+  EXPECT_EQ(d.model.domain, benchid::fit::Domain::z);
+  EXPECT_DOUBLE_EQ(d.model.delay_s, 0.0005);
+}
+
+TEST(Controller, BadSpecsAreRefusedNamingTheProblem) {
+  auto msg = [](const std::string& spec) {
+    try {
+      parse_controller(spec);
+    } catch (const benchid::InputError& e) {
+      return std::string(e.what());
+    }
+    return std::string("(no error)");
+  };
+  EXPECT_NE(msg("pidd:kp=1").find("form 'pidd' is unknown"), std::string::npos);
+  EXPECT_NE(msg("lead:z=10").find("missing parameter 'p'"), std::string::npos);
+  EXPECT_NE(msg("pid:kp=1,kd=0.1").find("without a derivative filter is improper"), std::string::npos);
+  EXPECT_NE(msg("gain:k=abc").find("'abc' is not a number"), std::string::npos);
+  EXPECT_NE(msg("pid:kp=1@dt=-0.1").find("dt and delay must be >= 0"), std::string::npos);
+  EXPECT_NE(msg("poly:num=1,2,3;den=1,0").find("expected a proper controller"), std::string::npos);
+  EXPECT_NE(msg("poly:num=1;den=0").find("the denominator is zero"), std::string::npos);
+  EXPECT_NE(msg("gain:k=1,x=2").find("unknown parameter 'x'"), std::string::npos);
+  EXPECT_NE(msg("").find("empty"), std::string::npos);
+}
+
+}  // namespace
