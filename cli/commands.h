@@ -12,5 +12,6 @@ void add_frf_command(CLI::App& app, const std::string& command_line);
 void add_excite_command(CLI::App& app);
 void add_fit_command(CLI::App& app);
 void add_replay_command(CLI::App& app);
+void add_loop_command(CLI::App& app);
 
 }  // namespace benchid::cli

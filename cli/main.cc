@@ -24,6 +24,7 @@ int main(int argc, char** argv) {
   benchid::cli::add_frf_command(app, command_line);
   benchid::cli::add_fit_command(app);
   benchid::cli::add_replay_command(app);
+  benchid::cli::add_loop_command(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

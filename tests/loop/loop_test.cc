@@ -177,3 +177,71 @@ TEST(Controller, BadSpecsAreRefusedNamingTheProblem) {
 }
 
 }  // namespace
+
+#include "loop/stability.h"
+
+namespace {
+
+TEST(Stability, TextbookLoopIsStableBelowGainSixAndNotAbove) {
+  // K/(s(s+1)(s+2)): |L(j sqrt2)| = K/6, marginal at K = 6 [D]; K = 1 closed-loop
+  // poles -2.324718, -0.337641 +- 0.562280j (CHECK_VALUES.md s.5 [S])
+  const RationalModel p = plant({0.0, -1.0, -2.0}, 1.0);
+  const Stability s1 = closed_loop_stability(p, parse_controller("gain:k=1"), 1e-5, 1e3);
+  ASSERT_TRUE(s1.judged) << s1.reason;
+  EXPECT_TRUE(s1.stable);
+  EXPECT_EQ(s1.nyquist_unstable, 0);
+  ASSERT_EQ(s1.closed_loop_poles.size(), 3u);
+  double worst = 0;
+  for (const cplx& want : {cplx(-2.324718), cplx(-0.337641, 0.562280), cplx(-0.337641, -0.562280)}) {
+    double best = 1e9;
+    for (const cplx& q : s1.closed_loop_poles) best = std::min(best, std::abs(q - want));
+    worst = std::max(worst, best);
+  }
+  EXPECT_LT(worst, 1e-6);  // printed to 6 decimals
+  const Stability s8 = closed_loop_stability(p, parse_controller("gain:k=8"), 1e-5, 1e3);
+  ASSERT_TRUE(s8.judged) << s8.reason;
+  EXPECT_FALSE(s8.stable);
+  EXPECT_EQ(s8.nyquist_unstable, 2);
+}
+
+TEST(Stability, UnstablePlantStabilisedByTheController) {
+  // P = 1/(s - 1): closed loop s - 1 + k, stable for k > 1 [D]; the Nyquist
+  // count must see the one open-loop unstable pole
+  const RationalModel p = plant({1.0}, 1.0);
+  const Stability a = closed_loop_stability(p, parse_controller("gain:k=3"), 1e-4, 1e4);
+  ASSERT_TRUE(a.judged) << a.reason;
+  EXPECT_EQ(a.open_loop_unstable, 1);
+  EXPECT_TRUE(a.stable);
+  const Stability b = closed_loop_stability(p, parse_controller("gain:k=0.5"), 1e-4, 1e4);
+  ASSERT_TRUE(b.judged) << b.reason;
+  EXPECT_FALSE(b.stable);
+}
+
+TEST(Stability, DelayLoopByNyquistAlone) {
+  // k e^{-0.5 s}/s: GM = pi/(2 k T) [D] -> stable for k < pi, unstable above
+  const RationalModel p = plant({0.0}, 1.0, 0.5);
+  const Stability a = closed_loop_stability(p, parse_controller("gain:k=1"), 1e-5, 1e3);
+  ASSERT_TRUE(a.judged) << a.reason;
+  EXPECT_FALSE(a.poles_available);  // a delay: no finite closed-loop pole set
+  EXPECT_TRUE(a.stable);
+  const Stability b = closed_loop_stability(p, parse_controller("gain:k=4"), 1e-5, 1e3);
+  ASSERT_TRUE(b.judged) << b.reason;
+  EXPECT_FALSE(b.stable);
+}
+
+TEST(Stability, DiscreteLoopEitherSideOfItsGainMargin) {
+  // ZOH of 1/(s(s+1)), Ts = 0.1: GM 26.17 dB = x20.3 (CHECK_VALUES.md s.5)
+  benchid::fit::DiscretizeOptions o;
+  o.sample_time_s = 0.1;
+  const RationalModel pz = benchid::fit::discretize(plant({0.0, -1.0}, 1.0), o).model;
+  const Stability a = closed_loop_stability(pz, parse_controller("gain:k=1@dt=0.1"), 0, 0);
+  ASSERT_TRUE(a.judged) << a.reason;
+  EXPECT_TRUE(a.stable);
+  const Stability b = closed_loop_stability(pz, parse_controller("gain:k=25@dt=0.1"), 0, 0);
+  ASSERT_TRUE(b.judged) << b.reason;
+  EXPECT_FALSE(b.stable);
+  // a discrete controller on a continuous plant is not judged here
+  EXPECT_FALSE(closed_loop_stability(plant({-1.0}, 1.0), parse_controller("gain:k=1@dt=0.1"), 1e-3, 4).judged);
+}
+
+}  // namespace

@@ -1,0 +1,193 @@
+// benchid loop PLANT.json --controller SPEC [--json] [-o LOOP.json]
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <fstream>
+#include <iostream>
+#include <limits>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <sstream>
+
+#include "cli/commands.h"
+#include "cli/output.h"
+#include "fit/model_json.h"
+#include "ident/error.h"
+#include "ident/json_file.h"
+#include "loop/controller.h"
+#include "loop/margins.h"
+#include "loop/stability.h"
+
+namespace benchid::cli {
+
+namespace {
+
+struct LoopArgs {
+  std::string plant, controller, out;
+  double pm_min = 45, gm_min = 10, ms_max_db = 6;
+  bool json = false, strict = false;
+};
+
+nlohmann::json num_or_null(double v) { return std::isfinite(v) ? nlohmann::json(v) : nlohmann::json(nullptr); }
+
+std::string fmt(const char* f, double v) {
+  char b[64];
+  std::snprintf(b, sizeof b, f, v);
+  return b;
+}
+
+void run_loop(const LoopArgs& a) {
+  refuse_overwriting_input(a.out, {a.plant});
+  if (a.controller.empty()) throw InputError("no controller; expected --controller SPEC (e.g. pid:kp=1,ki=10)");
+  {
+    std::string head;
+    std::ifstream in(a.plant);
+    std::getline(in, head);
+    if (head.rfind("# benchid frf", 0) == 0)
+      throw InputError(a.plant + ": an FRF plant is not supported by 'loop' yet; fit a model first (benchid fit)");
+  }
+  const fit::RationalModel plant = fit::read_model_json(a.plant);
+  double band_lo = 0, band_hi = 0;  // the band the model was fitted in, when it says
+  {
+    const nlohmann::json pj = read_json_file(a.plant, "a model from 'benchid fit'");
+    if (pj.contains("fit") && pj["fit"].contains("band_hz") && pj["fit"]["band_hz"].is_array() &&
+        pj["fit"]["band_hz"].size() == 2 && pj["fit"]["band_hz"][0].is_number() && pj["fit"]["band_hz"][1].is_number()) {
+      band_lo = pj["fit"]["band_hz"][0].get<double>();
+      band_hi = pj["fit"]["band_hz"][1].get<double>();
+    }
+  }
+  const loop::Controller c = loop::parse_controller(a.controller);
+  const loop::Margins m = loop::model_margins(plant, c);
+  const loop::Stability st = loop::closed_loop_stability(plant, c, m.f_lo_hz, m.f_hi_hz);
+  const double ms_db = 20 * std::log10(m.ms), mt_db = 20 * std::log10(m.mt);
+  struct Check {
+    const char* name;
+    double threshold, value;
+    bool pass;
+  };
+  const std::vector<Check> checks{
+      {"phase_margin_deg >=", a.pm_min, m.phase_margin_deg, m.phase_margin_deg >= a.pm_min},
+      {"gain_margin_db >=", a.gm_min, m.gain_margin_db, m.gain_margin_db >= a.gm_min},
+      {"peak_sensitivity_db <=", a.ms_max_db, ms_db, ms_db <= a.ms_max_db}};
+  bool pass = st.judged && st.stable;  // and, below, every figure inside the fitted band
+  for (const auto& k : checks) pass = pass && k.pass;
+  const char* caution =
+      "These figures hold only where the plant was measured and the model fits; changing a controller on live "
+      "machinery is at the user's own risk, under the machine's safety rules.";
+
+  std::ostringstream t;
+  t << "benchid loop: plant " << a.plant << ", controller " << a.controller << "\n";
+  t << "  searched " << fmt("%.4g", m.f_lo_hz) << " to " << fmt("%.4g", m.f_hi_hz) << " Hz; crossings (root-refined):\n";
+  if (m.crossings.empty()) t << "    none\n";
+  // every gain crossing; phase crossings up to eight (a delay makes the phase
+  // wind on, with ever smaller |L|): the rest summarised by their smallest margin
+  std::size_t phase_shown = 0, phase_hidden = 0;
+  double hidden_min = std::numeric_limits<double>::infinity(), hidden_from = 0;
+  for (const auto& x : m.crossings) {
+    const bool gain = x.kind == loop::Crossing::Kind::gain;
+    if (!gain && phase_shown >= 8) {
+      if (phase_hidden++ == 0) hidden_from = x.freq_hz;
+      hidden_min = std::min(hidden_min, x.margin);
+      continue;
+    }
+    if (!gain) ++phase_shown;
+    t << "    " << (gain ? "gain crossover  " : "phase crossover ") << fmt("%10.5g", x.freq_hz) << " Hz   "
+      << (gain ? "phase margin " + fmt("%.4g", x.margin) + " deg" : "gain margin " + fmt("%.4g", x.margin) + " dB") << "\n";
+  }
+  if (phase_hidden > 0)
+    t << "    ... " << phase_hidden << " more phase crossovers from " << fmt("%.5g", hidden_from)
+      << " Hz (the delay winds the phase on), gain margins " << fmt("%.4g", hidden_min) << " dB or more\n";
+  auto mark = [](bool ok) { return ok ? "pass" : "FAIL"; };
+  t << "  gain margin      " << (std::isinf(m.gain_margin_db) ? std::string("infinite") : fmt("%.4g dB", m.gain_margin_db) + " at " + fmt("%.5g Hz", m.gain_margin_hz))
+    << "   [>= " << fmt("%g", a.gm_min) << " dB: " << mark(checks[1].pass) << "]\n";
+  if (std::isfinite(m.lower_gain_margin_db)) t << "  lower gain margin " << fmt("%.4g dB", m.lower_gain_margin_db) << " (conditionally stable: how far the gain may fall)\n";
+  t << "  phase margin     " << (std::isinf(m.phase_margin_deg) ? std::string("infinite (no gain crossover)") : fmt("%.4g deg", m.phase_margin_deg) + " at " + fmt("%.5g Hz", m.crossover_hz))
+    << "   [>= " << fmt("%g", a.pm_min) << " deg: " << mark(checks[0].pass) << "]\n";
+  t << "  delay margin     " << (std::isinf(m.delay_margin_s) ? std::string("infinite") : fmt("%.4g ms", m.delay_margin_s * 1e3)) << "\n";
+  t << "  peak sensitivity Ms " << fmt("%.4g", m.ms) << " (" << fmt("%.3g dB", ms_db) << ") at " << fmt("%.5g Hz", m.ms_hz)
+    << "; modulus margin " << fmt("%.3g", 1 / m.ms) << "   [<= " << fmt("%g", a.ms_max_db) << " dB: " << mark(checks[2].pass) << "]\n";
+  t << "  peak complementary sensitivity Mt " << fmt("%.4g", m.mt) << " (" << fmt("%.3g dB", mt_db) << ") at " << fmt("%.5g Hz", m.mt_hz) << "\n";
+  t << "  closed-loop bandwidth " << (std::isfinite(m.bandwidth_hz) ? fmt("%.5g Hz", m.bandwidth_hz) : std::string("not found in the range")) << " (|T| 3 dB below its low-frequency value)\n";
+  t << "  closed-loop stability: " << (st.judged ? (st.stable ? "stable" : "UNSTABLE") : "not judged") << " (" << st.reason << ")\n";
+  if (band_hi > 0) {
+    std::vector<std::string> outside;
+    auto check = [&](const char* what, double f) {
+      if (std::isfinite(f) && (f < band_lo || f > band_hi)) outside.push_back(std::string(what) + " at " + fmt("%.4g Hz", f));
+    };
+    check("the gain margin", std::isfinite(m.gain_margin_db) ? m.gain_margin_hz : NAN);
+    check("the phase margin", std::isfinite(m.phase_margin_deg) ? m.crossover_hz : NAN);
+    check("Ms", m.ms_hz);
+    if (!outside.empty()) {
+      t << "  WARNING: outside the model's fitted band (" << fmt("%.4g", band_lo) << " to " << fmt("%.4g", band_hi)
+        << " Hz), where the model is not evidence:";
+      for (std::size_t i = 0; i < outside.size(); ++i) t << (i ? ", " : " ") << outside[i];
+      t << "\n";
+      pass = false;
+    }
+  }
+  t << "  verdict: " << (pass ? "pass" : "FAIL") << " (thresholds: phase and gain margin as common practice, Ms as in Astrom & Murray, Feedback Systems; and a stable closed loop)\n";
+  t << "  not computed yet: step metrics, margins of a measured FRF and their uncertainty, parameter sweeps\n";
+  t << "  CAUTION: " << caution << "\n";
+
+  nlohmann::json j;
+  j["format"] = "benchid.loop/1";
+  j["plant"] = a.plant;
+  j["controller"] = a.controller;
+  j["gain_margin_db"] = num_or_null(m.gain_margin_db);
+  j["gain_margin_hz"] = num_or_null(m.gain_margin_hz);
+  j["lower_gain_margin_db"] = num_or_null(m.lower_gain_margin_db);
+  j["phase_margin_deg"] = num_or_null(m.phase_margin_deg);
+  j["crossover_hz"] = num_or_null(m.crossover_hz);
+  j["delay_margin_s"] = num_or_null(m.delay_margin_s);
+  j["peak_sensitivity_db"] = ms_db;
+  j["peak_sensitivity_hz"] = m.ms_hz;
+  j["peak_complementary_db"] = mt_db;
+  j["peak_complementary_hz"] = m.mt_hz;
+  j["bandwidth_hz"] = num_or_null(m.bandwidth_hz);
+  j["closed_loop_stable"] = st.judged ? nlohmann::json(st.stable) : nlohmann::json(nullptr);
+  j["stability_basis"] = st.reason;
+  nlohmann::json cr = nlohmann::json::array();
+  std::size_t listed = 0;
+  for (const auto& x : m.crossings)
+    if (listed++ < 50) cr.push_back({{"kind", x.kind == loop::Crossing::Kind::gain ? "gain" : "phase"},
+                  {"freq_hz", x.freq_hz},
+                  {x.kind == loop::Crossing::Kind::gain ? "phase_margin_deg" : "gain_margin_db", x.margin}});
+  j["crossings"] = cr;
+  j["crossings_total"] = m.crossings.size();  // the first 50 are listed
+  j["step"] = nullptr;  // not computed yet
+  nlohmann::json v = nlohmann::json::array();
+  for (const auto& k : checks) v.push_back({{"check", k.name}, {"threshold", k.threshold}, {"value", num_or_null(k.value)}, {"pass", k.pass}});
+  v.push_back({{"check", "closed_loop_stable"}, {"pass", st.judged && st.stable}});
+  j["verdict"] = {{"pass", pass}, {"checks", v}};
+  j["caution"] = caution;
+  const std::string js = j.dump(2) + "\n";
+  if (a.json) {
+    std::cerr << t.str();
+    std::cout << js;
+  } else {
+    std::cout << t.str();
+  }
+  if (!a.out.empty()) write_file_atomically(a.out, js);
+  if (a.strict && !pass) std::exit(3);
+}
+
+}  // namespace
+
+void add_loop_command(CLI::App& app) {
+  auto a = std::make_shared<LoopArgs>();
+  CLI::App* c = app.add_subcommand(
+      "loop", "Loop gain L = C P of a model plant and a controller: every gain and phase crossover (root-refined), "
+              "gain, phase and delay margins, Ms, Mt, closed-loop bandwidth and stability, and a verdict.");
+  c->add_option("plant", a->plant, "Plant model JSON from 'benchid fit'")->required();
+  c->add_option("--controller", a->controller, "Controller SPEC, e.g. pid:kp=2,ki=10,kd=0.05,tf=0.002*notch:f=50,width=10,depth=20 "
+                "(forms gain, pid, lead, lag, notch, poly, roots; @dt=SECONDS for a discrete controller; see README)");
+  c->add_option("--pm-min", a->pm_min, "Phase margin threshold, deg (default 45, common practice)");
+  c->add_option("--gm-min", a->gm_min, "Gain margin threshold, dB (default 10, common practice)");
+  c->add_option("--ms-max", a->ms_max_db, "Peak sensitivity threshold, dB (default 6, Astrom & Murray)");
+  c->add_option("-o,--out", a->out, "Loop JSON to write (benchid.loop/1)");
+  c->add_flag("--json", a->json, "Print only the loop JSON on stdout (the table goes to stderr)");
+  c->add_flag("--strict", a->strict, "Exit status 3 when the verdict fails");
+  c->callback([a] { run_loop(*a); });
+}
+
+}  // namespace benchid::cli

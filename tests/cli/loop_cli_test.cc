@@ -1,0 +1,82 @@
+// `benchid loop` as a user runs it: table, JSON, verdict and refusals.
+#include <gtest/gtest.h>
+
+#include <cmath>
+#include <nlohmann/json.hpp>
+
+#include "fit/model.h"
+#include "fit/model_json.h"
+#include "tests/support/run_cli.h"
+#include "tests/support/temp_dir.h"
+
+using benchid::test::Outcome;
+using benchid::test::TempDir;
+
+namespace {
+
+Outcome run(const TempDir& d, const std::string& args) { return benchid::test::run_benchid(d, args); }
+
+std::string textbook_plant(const TempDir& d, double band_hi_hz = 10) {
+  // 1/(s(s+1)(s+2)) (CHECK_VALUES.md s.5), as if fitted over 0.01..band_hi Hz
+  const auto m = benchid::fit::from_zpk(benchid::fit::Zpk{{}, {0.0, -1.0, -2.0}, 1.0});
+  benchid::fit::FitSummary fs;
+  fs.band_lo_hz = 0.01;
+  fs.band_hi_hz = band_hi_hz;
+  return d.write("plant.json", benchid::fit::model_json(m, &fs));
+}
+
+TEST(LoopCli, TableJsonAndVerdict) {
+  TempDir d;
+  const std::string p = textbook_plant(d);
+  Outcome r = run(d, "loop " + p + " --controller gain:k=1 -o " + d.file("loop.json"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_NE(r.out.find("gain margin      15.56 dB"), std::string::npos) << r.out;  // 20 log10 6
+  EXPECT_NE(r.out.find("phase margin     53.41 deg"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("closed-loop stability: stable"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("verdict: pass"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("CAUTION"), std::string::npos) << r.out;
+  const auto j = nlohmann::json::parse(benchid::test::slurp(d.file("loop.json")));
+  EXPECT_EQ(j["format"], "benchid.loop/1");
+  EXPECT_NEAR(j["gain_margin_db"].get<double>(), 20 * std::log10(6.0), 1e-4);
+  EXPECT_EQ(j["closed_loop_stable"], true);
+  // K = 4: GM 3.52 dB < 10 dB fails the verdict; --strict makes it exit 3
+  r = run(d, "loop " + p + " --controller gain:k=4 --strict");
+  EXPECT_EQ(r.code, 3) << r.out;
+  EXPECT_NE(r.out.find("[>= 10 dB: FAIL]"), std::string::npos) << r.out;
+  // K = 8: unstable
+  r = run(d, "loop " + p + " --controller gain:k=8 --json");
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_EQ(nlohmann::json::parse(r.out)["closed_loop_stable"], false);
+  EXPECT_NE(r.err.find("UNSTABLE"), std::string::npos) << r.err;
+}
+
+TEST(LoopCli, InfiniteGainMarginIsNullAndOutOfBandFiguresAreFlagged) {
+  TempDir d;
+  // 4/(s+1)^2 has no phase crossover: GM infinite -> null (DESIGN.md)
+  const auto m = benchid::fit::from_zpk(benchid::fit::Zpk{{}, {-1.0, -1.5}, 6.0});
+  d.write("p2.json", benchid::fit::model_json(m));
+  Outcome r = run(d, "loop " + d.file("p2.json") + " --controller gain:k=1 --json");
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_TRUE(nlohmann::json::parse(r.out)["gain_margin_db"].is_null());
+  // a model fitted only up to 0.1 Hz cannot vouch for a crossover at 0.07 Hz... and not at 0.23 Hz
+  r = run(d, "loop " + textbook_plant(d, 0.1) + " --controller gain:k=1");
+  EXPECT_NE(r.out.find("WARNING: outside the model's fitted band"), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("verdict: FAIL"), std::string::npos) << r.out;
+}
+
+TEST(LoopCli, RefusesWhatItCannotAnalyse) {
+  TempDir d;
+  const std::string p = textbook_plant(d);
+  Outcome r = run(d, "loop " + p);
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("no controller"), std::string::npos) << r.err;
+  r = run(d, "loop " + p + " --controller pid:kp=1,kd=2");
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("improper"), std::string::npos) << r.err;
+  d.write("frf.csv", "# benchid frf 1\nfreq_hz,re,im\n1,1,0\n");
+  r = run(d, "loop " + d.file("frf.csv") + " --controller gain:k=1");
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("fit a model first"), std::string::npos) << r.err;
+}
+
+}  // namespace
