@@ -11,10 +11,13 @@
 
 #include "cli/commands.h"
 #include "cli/output.h"
+#include "cli/parse.h"
 #include "fit/model_json.h"
 #include "ident/error.h"
 #include "ident/json_file.h"
+#include "ident/frf_csv.h"
 #include "loop/controller.h"
+#include "loop/frf_loop.h"
 #include "loop/margins.h"
 #include "loop/stability.h"
 
@@ -26,6 +29,9 @@ struct LoopArgs {
   std::string plant, controller, out;
   double pm_min = 45, gm_min = 10, ms_max_db = 6;
   bool json = false, strict = false;
+  int plant_integrators = 0;
+  std::string band;
+  std::size_t draws = loop::FrfLoopOptions{}.draws;
 };
 
 nlohmann::json num_or_null(double v) { return std::isfinite(v) ? nlohmann::json(v) : nlohmann::json(nullptr); }
@@ -39,26 +45,45 @@ std::string fmt(const char* f, double v) {
 void run_loop(const LoopArgs& a) {
   refuse_overwriting_input(a.out, {a.plant});
   if (a.controller.empty()) throw InputError("no controller; expected --controller SPEC (e.g. pid:kp=1,ki=10)");
+  bool frf_plant = false;
   {
     std::string head;
     std::ifstream in(a.plant);
     std::getline(in, head);
-    if (head.rfind("# benchid frf", 0) == 0)
-      throw InputError(a.plant + ": an FRF plant is not supported by 'loop' yet; fit a model first (benchid fit)");
+    frf_plant = head.rfind("# benchid frf", 0) == 0 || head.rfind("freq_hz", 0) == 0;
   }
-  const fit::RationalModel plant = fit::read_model_json(a.plant);
+  const loop::Controller c = loop::parse_controller(a.controller);
+  loop::Margins m;
+  loop::Stability st;
+  loop::FrfMargins fm;
+  fit::RationalModel plant;
   double band_lo = 0, band_hi = 0;  // the band the model was fitted in, when it says
-  {
+  if (frf_plant) {
+    const ident::Frf frf = ident::read_frf_csv(a.plant);
+    loop::FrfLoopOptions fo;
+    fo.plant_integrators = a.plant_integrators;
+    fo.draws = a.draws;
+    if (!a.band.empty()) {
+      const Band b = parse_band(a.band, "--band");
+      fo.band_lo_hz = b.lo_hz;
+      fo.band_hi_hz = b.hi_hz;
+    }
+    fm = loop::frf_margins(frf, c, fo);
+    m = fm.nominal;
+    st.judged = fm.inferred_unstable >= 0;
+    st.stable = fm.inferred_unstable == 0;
+    st.reason = fm.stability_note;
+  } else {
+    plant = fit::read_model_json(a.plant);
     const nlohmann::json pj = read_json_file(a.plant, "a model from 'benchid fit'");
     if (pj.contains("fit") && pj["fit"].contains("band_hz") && pj["fit"]["band_hz"].is_array() &&
         pj["fit"]["band_hz"].size() == 2 && pj["fit"]["band_hz"][0].is_number() && pj["fit"]["band_hz"][1].is_number()) {
       band_lo = pj["fit"]["band_hz"][0].get<double>();
       band_hi = pj["fit"]["band_hz"][1].get<double>();
     }
+    m = loop::model_margins(plant, c);
+    st = loop::closed_loop_stability(plant, c, m.f_lo_hz, m.f_hi_hz);
   }
-  const loop::Controller c = loop::parse_controller(a.controller);
-  const loop::Margins m = loop::model_margins(plant, c);
-  const loop::Stability st = loop::closed_loop_stability(plant, c, m.f_lo_hz, m.f_hi_hz);
   const double ms_db = 20 * std::log10(m.ms), mt_db = 20 * std::log10(m.mt);
   struct Check {
     const char* name;
@@ -98,17 +123,24 @@ void run_loop(const LoopArgs& a) {
     t << "    ... " << phase_hidden << " more phase crossovers from " << fmt("%.5g", hidden_from)
       << " Hz (the delay winds the phase on), gain margins " << fmt("%.4g", hidden_min) << " dB or more\n";
   auto mark = [](bool ok) { return ok ? "pass" : "FAIL"; };
-  t << "  gain margin      " << (std::isinf(m.gain_margin_db) ? std::string("infinite") : fmt("%.4g dB", m.gain_margin_db) + " at " + fmt("%.5g Hz", m.gain_margin_hz))
+  auto pm_unc = [&](double v) { return std::isfinite(v) ? " +- " + fmt("%.2g", v) : std::string(); };
+  if (frf_plant)
+    t << "  plant: measured FRF (" << fm.lines << " lines used, " << fm.left_out
+      << " left out as unreliable or with rel_err > 0.25; margins within the band of the lines used)"
+      << (fm.draws ? ", +- is 1 s.d. from " + std::to_string(fm.draws) + " Monte Carlo draws of the per-line random error" : "")
+      << "\n";
+  t << "  gain margin      " << (std::isinf(m.gain_margin_db) ? std::string("infinite") : fmt("%.4g", m.gain_margin_db) + pm_unc(fm.gm_sd_db) + " dB at " + fmt("%.5g Hz", m.gain_margin_hz))
     << "   [>= " << fmt("%g", a.gm_min) << " dB: " << mark(checks[1].pass) << "]\n";
   if (std::isfinite(m.lower_gain_margin_db)) t << "  lower gain margin " << fmt("%.4g dB", m.lower_gain_margin_db) << " (conditionally stable: how far the gain may fall)\n";
-  t << "  phase margin     " << (std::isinf(m.phase_margin_deg) ? std::string("infinite (no gain crossover)") : fmt("%.4g deg", m.phase_margin_deg) + " at " + fmt("%.5g Hz", m.crossover_hz))
+  t << "  phase margin     " << (std::isinf(m.phase_margin_deg) ? std::string("infinite (no gain crossover)") : fmt("%.4g", m.phase_margin_deg) + pm_unc(fm.pm_sd_deg) + " deg at " + fmt("%.5g Hz", m.crossover_hz))
     << "   [>= " << fmt("%g", a.pm_min) << " deg: " << mark(checks[0].pass) << "]\n";
   t << "  delay margin     " << (std::isinf(m.delay_margin_s) ? std::string("infinite") : fmt("%.4g ms", m.delay_margin_s * 1e3)) << "\n";
-  t << "  peak sensitivity Ms " << fmt("%.4g", m.ms) << " (" << fmt("%.3g dB", ms_db) << ") at " << fmt("%.5g Hz", m.ms_hz)
+  t << "  peak sensitivity Ms " << fmt("%.4g", m.ms) << " (" << fmt("%.3g", ms_db) << pm_unc(fm.ms_sd_db) << " dB) at " << fmt("%.5g Hz", m.ms_hz)
     << "; modulus margin " << fmt("%.3g", 1 / m.ms) << "   [<= " << fmt("%g", a.ms_max_db) << " dB: " << mark(checks[2].pass) << "]\n";
   t << "  peak complementary sensitivity Mt " << fmt("%.4g", m.mt) << " (" << fmt("%.3g dB", mt_db) << ") at " << fmt("%.5g Hz", m.mt_hz) << "\n";
   t << "  closed-loop bandwidth " << (std::isfinite(m.bandwidth_hz) ? fmt("%.5g Hz", m.bandwidth_hz) : std::string("not found in the range")) << " (|T| 3 dB below its low-frequency value)\n";
-  t << "  closed-loop stability: " << (st.judged ? (st.stable ? "stable" : "UNSTABLE") : "not judged") << " (" << st.reason << ")\n";
+  t << "  closed-loop stability: " << (st.judged ? (st.stable ? "stable" : "UNSTABLE") : "not judged")
+    << (frf_plant && st.judged ? " (inferred)" : "") << " (" << st.reason << ")\n";
   if (band_hi > 0) {
     std::vector<std::string> outside;
     auto check = [&](const char* what, double f) {
@@ -126,7 +158,7 @@ void run_loop(const LoopArgs& a) {
     }
   }
   t << "  verdict: " << (pass ? "pass" : "FAIL") << " (thresholds: phase and gain margin as common practice, Ms as in Astrom & Murray, Feedback Systems; and a stable closed loop)\n";
-  t << "  not computed yet: step metrics, margins of a measured FRF and their uncertainty, parameter sweeps\n";
+  t << "  not computed yet: step metrics, parameter sweeps\n";
   t << "  CAUTION: " << caution << "\n";
 
   nlohmann::json j;
@@ -146,6 +178,13 @@ void run_loop(const LoopArgs& a) {
   j["bandwidth_hz"] = num_or_null(m.bandwidth_hz);
   j["closed_loop_stable"] = st.judged ? nlohmann::json(st.stable) : nlohmann::json(nullptr);
   j["stability_basis"] = st.reason;
+  j["plant_kind"] = frf_plant ? "frf" : "model";
+  if (frf_plant)
+    j["uncertainty"] = {{"draws", fm.draws},
+                        {"phase_margin_sd_deg", num_or_null(fm.pm_sd_deg)},
+                        {"gain_margin_sd_db", num_or_null(fm.gm_sd_db)},
+                        {"peak_sensitivity_sd_db", num_or_null(fm.ms_sd_db)},
+                        {"crossover_sd_hz", num_or_null(fm.crossover_sd_hz)}};
   nlohmann::json cr = nlohmann::json::array();
   std::size_t listed = 0;
   for (const auto& x : m.crossings)
@@ -178,7 +217,13 @@ void add_loop_command(CLI::App& app) {
   CLI::App* c = app.add_subcommand(
       "loop", "Loop gain L = C P of a model plant and a controller: every gain and phase crossover (root-refined), "
               "gain, phase and delay margins, Ms, Mt, closed-loop bandwidth and stability, and a verdict.");
-  c->add_option("plant", a->plant, "Plant model JSON from 'benchid fit'")->required();
+  c->add_option("plant", a->plant, "Plant: a model JSON from 'benchid fit', or an FRF CSV from 'benchid frf' (model-free "
+                "margins within the measured band, with their uncertainty)")->required();
+  c->add_option("--plant-integrators", a->plant_integrators, "FRF plant: integrators of the plant below the measured "
+                "band, for the Nyquist inference (default 0)");
+  c->add_option("--band", a->band, "FRF plant: use only lines in LO:HI, Hz (default: all usable lines)");
+  c->add_option("--draws", a->draws, "FRF plant: Monte Carlo draws of the per-line random error for the +- figures "
+                "(default 200; 0: none)");
   c->add_option("--controller", a->controller, "Controller SPEC, e.g. pid:kp=2,ki=10,kd=0.05,tf=0.002*notch:f=50,width=10,depth=20 "
                 "(forms gain, pid, lead, lag, notch, poly, roots; @dt=SECONDS for a discrete controller; see README)");
   c->add_option("--pm-min", a->pm_min, "Phase margin threshold, deg (default 45, common practice)");

@@ -71,6 +71,12 @@ Margins margins(const LoopFn& loop, double f_lo, double f_hi, std::size_t points
       }
     }
   }
+  // a crossing met from two grid intervals (a kink of an interpolated FRF) is one crossing
+  std::vector<Crossing> unique;
+  for (const Crossing& x : m.crossings)
+    if (unique.empty() || unique.back().kind != x.kind || std::fabs(unique.back().freq_hz - x.freq_hz) > 1e-6 * x.freq_hz)
+      unique.push_back(x);
+  m.crossings = unique;
   if (m.crossings.empty() || m.phase_margin_deg == std::numeric_limits<double>::infinity()) m.delay_margin_s = std::numeric_limits<double>::infinity();
   // peaks of |S| and |T|
   auto s_mag = [&](double fr) { return 1.0 / std::abs(1.0 + loop(fr)); };

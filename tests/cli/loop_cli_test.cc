@@ -64,6 +64,28 @@ TEST(LoopCli, InfiniteGainMarginIsNullAndOutOfBandFiguresAreFlagged) {
   EXPECT_NE(r.out.find("verdict: FAIL"), std::string::npos) << r.out;
 }
 
+TEST(LoopCli, FrfPlantGivesMarginsWithUncertainty) {
+  // the textbook plant as a measured FRF with 1 % error per line
+  TempDir d;
+  std::string s = "# benchid frf 1\nfreq_hz,re,im,rel_err,reliable\n";
+  char b[128];
+  for (int k = 0; k < 1500; ++k) {
+    const double f = 1e-3 * std::pow(1e4, k / 1499.0);
+    const std::complex<double> sj(0, 2 * M_PI * f), h = 1.0 / (sj * (sj + 1.0) * (sj + 2.0));
+    std::snprintf(b, sizeof b, "%.12g,%.12g,%.12g,0.01,1\n", f, h.real(), h.imag());
+    s += b;
+  }
+  d.write("plant_frf.csv", s);
+  const Outcome r = run(d, "loop " + d.file("plant_frf.csv") + " --controller gain:k=1 --plant-integrators 1 --json");
+  ASSERT_EQ(r.code, 0) << r.err;
+  const auto j = nlohmann::json::parse(r.out);
+  EXPECT_EQ(j["plant_kind"], "frf");
+  EXPECT_NEAR(j["phase_margin_deg"].get<double>(), 53.4108, 2e-3);  // CHECK_VALUES.md s.5, interpolation ~1e-5
+  EXPECT_GT(j["uncertainty"]["phase_margin_sd_deg"].get<double>(), 0.0);
+  EXPECT_EQ(j["closed_loop_stable"], true);
+  EXPECT_NE(r.err.find("(inferred)"), std::string::npos) << r.err;
+}
+
 TEST(LoopCli, RefusesWhatItCannotAnalyse) {
   TempDir d;
   const std::string p = textbook_plant(d);
@@ -76,7 +98,7 @@ TEST(LoopCli, RefusesWhatItCannotAnalyse) {
   d.write("frf.csv", "# benchid frf 1\nfreq_hz,re,im\n1,1,0\n");
   r = run(d, "loop " + d.file("frf.csv") + " --controller gain:k=1");
   EXPECT_EQ(r.code, 2);
-  EXPECT_NE(r.err.find("fit a model first"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("expected at least 4 for loop figures"), std::string::npos) << r.err;
 }
 
 }  // namespace

@@ -1,0 +1,127 @@
+#include "loop/frf_loop.h"
+
+#include <algorithm>
+#include <cmath>
+#include <numbers>
+#include <random>
+
+#include "ident/error.h"
+
+namespace benchid::loop {
+
+namespace {
+
+struct Interp {
+  std::vector<double> lf, lm, ph;  // ln f, ln |H|, unwrapped phase (rad)
+  explicit Interp(const std::vector<double>& f, const std::vector<cplx>& h) {
+    double prev = 0;
+    for (std::size_t i = 0; i < f.size(); ++i) {
+      double a = std::arg(h[i]);
+      if (i > 0) a -= 2 * std::numbers::pi * std::round((a - prev) / (2 * std::numbers::pi));
+      prev = a;
+      lf.push_back(std::log(f[i]));
+      lm.push_back(std::log(std::abs(h[i])));
+      ph.push_back(a);
+    }
+  }
+  cplx operator()(double f) const {
+    const double x = std::log(f);
+    auto it = std::upper_bound(lf.begin(), lf.end(), x);
+    std::size_t i = it == lf.begin() ? 0 : static_cast<std::size_t>(it - lf.begin()) - 1;
+    if (i + 1 >= lf.size()) i = lf.size() - 2;
+    const double t = std::clamp((x - lf[i]) / (lf[i + 1] - lf[i]), 0.0, 1.0);
+    return std::polar(std::exp(lm[i] + t * (lm[i + 1] - lm[i])), ph[i] + t * (ph[i + 1] - ph[i]));
+  }
+};
+
+double sd(const std::vector<double>& v) {
+  if (v.size() < 2) return std::numeric_limits<double>::quiet_NaN();
+  double m = 0;
+  for (double x : v) m += x;
+  m /= static_cast<double>(v.size());
+  double s = 0;
+  for (double x : v) s += (x - m) * (x - m);
+  return std::sqrt(s / static_cast<double>(v.size() - 1));
+}
+
+}  // namespace
+
+FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoopOptions& o) {
+  std::vector<double> f;
+  std::vector<cplx> h;
+  std::vector<double> eps;
+  std::size_t left_out = 0;
+  for (std::size_t k = 0; k < frf.size(); ++k) {
+    const double fr = frf.freq_hz[k];
+    if ((o.band_lo_hz > 0 && fr < o.band_lo_hz) || (o.band_hi_hz > 0 && fr > o.band_hi_hz)) continue;
+    const double e = k < frf.rel_err.size() ? frf.rel_err[k] : std::numeric_limits<double>::quiet_NaN();
+    if ((!frf.reliable.empty() && !frf.reliable[k]) || e > o.max_rel_err) {
+      ++left_out;
+      continue;
+    }
+    f.push_back(frf.freq_hz[k]);
+    h.push_back(frf.h[k]);
+    eps.push_back(k < frf.rel_err.size() ? frf.rel_err[k] : std::numeric_limits<double>::quiet_NaN());
+  }
+  if (f.size() < 4) throw InputError("the FRF has " + std::to_string(f.size()) + " usable lines (reliable, rel_err <= " +
+                                    fmt_num(o.max_rel_err) + ", in the band); expected at least 4 for loop figures");
+  FrfMargins out;
+  out.lines = f.size();
+  out.left_out = left_out;
+  const double lo = f.front(), hi = f.back();
+  auto loop_of = [&](const Interp& p) { return [&p, &c](double fr) { return p(fr) * c.model.response(fr); }; };
+  const Interp nominal(f, h);
+  out.nominal = margins(loop_of(nominal), lo, hi, o.points);
+
+  // Nyquist count over the band, assuming an open-loop stable plant
+  {
+    const int k = o.plant_integrators + c.model.integrators +
+                  static_cast<int>(std::count_if(c.model.poles.begin(), c.model.poles.end(), [](cplx q) { return std::abs(q) == 0; }));
+    double delta = 0, prev = 0;
+    for (std::size_t i = 0; i < o.points; ++i) {
+      const double fr = lo * std::pow(hi / lo, static_cast<double>(i) / static_cast<double>(o.points - 1));
+      const double a = std::arg(1.0 + nominal(fr) * c.model.response(fr));
+      if (i > 0) {
+        double d = a - prev;
+        d -= 2 * std::numbers::pi * std::round(d / (2 * std::numbers::pi));
+        delta += d;
+      }
+      prev = a;
+    }
+    const double l_hi = std::abs(nominal(hi) * c.model.response(hi));
+    const double z = -(2 * delta - k * std::numbers::pi) / (2 * std::numbers::pi);
+    if (l_hi < 0.5 && std::fabs(z - std::round(z)) < 0.15) {
+      out.inferred_unstable = static_cast<int>(std::lround(z));
+      out.stability_note = "inferred from the Nyquist plot of the measured band, assuming an open-loop stable plant with " +
+                           std::to_string(k) + " integrator(s) below the band (declare the plant's with --plant-integrators)";
+    } else {
+      out.stability_note = "not inferred: |L| = " + fmt_num(l_hi) + " at the top of the measured band (the loop gain must fall "
+                           "below 1 inside the band for the Nyquist count)";
+    }
+  }
+
+  // Monte Carlo over the per-line random error
+  bool have_err = std::all_of(eps.begin(), eps.end(), [](double e) { return std::isfinite(e); });
+  if (o.draws > 1 && have_err) {
+    std::mt19937_64 gen(o.seed);
+    std::normal_distribution<double> n01;
+    std::vector<double> pm, gm, ms, fc;
+    std::vector<cplx> hp(h.size());
+    for (std::size_t d = 0; d < o.draws; ++d) {
+      for (std::size_t k = 0; k < h.size(); ++k) hp[k] = h[k] * (1.0 + eps[k] * cplx(n01(gen), n01(gen)));
+      const Interp p(f, hp);
+      const Margins m = margins(loop_of(p), lo, hi, o.points);
+      if (std::isfinite(m.phase_margin_deg)) pm.push_back(m.phase_margin_deg), fc.push_back(m.crossover_hz);
+      if (std::isfinite(m.gain_margin_db)) gm.push_back(m.gain_margin_db);
+      ms.push_back(20 * std::log10(m.ms));
+    }
+    out.draws = o.draws;
+    out.pm_sd_deg = sd(pm);
+    out.gm_sd_db = sd(gm);
+    out.ms_sd_db = sd(ms);
+    out.crossover_sd_hz = sd(fc);
+  }
+  return out;
+}
+
+}  // namespace benchid::loop
