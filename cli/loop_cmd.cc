@@ -6,6 +6,7 @@
 #include <iostream>
 #include <limits>
 #include <memory>
+#include <optional>
 #include <nlohmann/json.hpp>
 #include <sstream>
 
@@ -20,6 +21,7 @@
 #include "loop/frf_loop.h"
 #include "loop/margins.h"
 #include "loop/stability.h"
+#include "loop/step.h"
 
 namespace benchid::cli {
 
@@ -30,7 +32,7 @@ struct LoopArgs {
   double pm_min = 45, gm_min = 10, ms_max_db = 6;
   bool json = false, strict = false;
   int plant_integrators = 0;
-  std::string band;
+  std::string band, sweep;
   std::size_t draws = loop::FrfLoopOptions{}.draws;
 };
 
@@ -42,6 +44,68 @@ std::string fmt(const char* f, double v) {
   return b;
 }
 
+void run_sweep(const LoopArgs& a, bool frf_plant);
+
+// --sweep NAME=LO:HI:N: the figures for N values of one controller parameter
+void run_sweep(const LoopArgs& a, bool frf_plant) {
+  const auto eq = a.sweep.find('='), c1 = a.sweep.find(':', eq == std::string::npos ? 0 : eq);
+  const auto c2 = c1 == std::string::npos ? std::string::npos : a.sweep.find(':', c1 + 1);
+  if (eq == std::string::npos || c1 == std::string::npos || c2 == std::string::npos)
+    throw InputError("--sweep '" + a.sweep + "': expected NAME=LO:HI:N, e.g. kp=0.5:2:10");
+  const std::string name = a.sweep.substr(0, eq);
+  const double lo = parse_number(a.sweep.substr(eq + 1, c1 - eq - 1), "--sweep LO"),
+               hi = parse_number(a.sweep.substr(c1 + 1, c2 - c1 - 1), "--sweep HI");
+  const double nn = parse_number(a.sweep.substr(c2 + 1), "--sweep N");
+  if (!(nn >= 2 && nn <= 10000 && nn == std::floor(nn))) throw InputError("--sweep N: expected a whole number 2..10000");
+  // the parameter's place in the spec: "name=" at the start or after ':', ',' or ';'
+  std::size_t at = std::string::npos;
+  for (std::size_t p = a.controller.find(name + "="); p != std::string::npos; p = a.controller.find(name + "=", p + 1))
+    if (p == 0 || a.controller[p - 1] == ':' || a.controller[p - 1] == ',' || a.controller[p - 1] == ';') {
+      at = p;
+      break;
+    }
+  if (at == std::string::npos)
+    throw InputError("--sweep: the controller '" + a.controller + "' has no parameter '" + name + "'");
+  const std::size_t vstart = at + name.size() + 1, vend = a.controller.find_first_of(",;*@", vstart);
+  std::unique_ptr<ident::Frf> frf;
+  std::unique_ptr<fit::RationalModel> plant;
+  if (frf_plant) frf = std::make_unique<ident::Frf>(ident::read_frf_csv(a.plant));
+  else plant = std::make_unique<fit::RationalModel>(fit::read_model_json(a.plant));
+  std::cout << "benchid loop --sweep " << a.sweep << " on " << a.plant << "\n"
+            << "  " << name << "          GM dB    PM deg     Ms dB   crossover Hz   closed loop\n";
+  const int n = static_cast<int>(nn);
+  for (int i = 0; i < n; ++i) {
+    const double v = lo + (hi - lo) * i / (n - 1);
+    char vb[32];
+    std::snprintf(vb, sizeof vb, "%.6g", v);
+    const std::string spec = a.controller.substr(0, vstart) + vb + (vend == std::string::npos ? "" : a.controller.substr(vend));
+    const loop::Controller c = loop::parse_controller(spec);
+    loop::Margins m;
+    std::string stable = "not judged";
+    if (frf) {
+      loop::FrfLoopOptions fo;
+      fo.draws = 0;
+      fo.plant_integrators = a.plant_integrators;
+      const loop::FrfMargins fm = loop::frf_margins(*frf, c, fo);
+      m = fm.nominal;
+      if (fm.inferred_unstable >= 0) stable = fm.inferred_unstable == 0 ? "stable (inferred)" : "UNSTABLE (inferred)";
+    } else {
+      m = loop::model_margins(*plant, c);
+      const loop::Stability st = loop::closed_loop_stability(*plant, c, m.f_lo_hz, m.f_hi_hz);
+      if (st.judged) stable = st.stable ? "stable" : "UNSTABLE";
+    }
+    // no crossing where the gain may rise, one above 0 dB: the gain must fall (negative margin)
+    const double gm = std::isinf(m.gain_margin_db) && std::isfinite(m.lower_gain_margin_db) ? -m.lower_gain_margin_db
+                                                                                          : m.gain_margin_db;
+    char row[200];
+    std::snprintf(row, sizeof row, "  %-10s %8.3g  %8.3g  %8.3g  %13.5g   %s\n", vb, gm, m.phase_margin_deg,
+                  20 * std::log10(m.ms), m.crossover_hz, stable.c_str());
+    std::cout << row;
+  }
+  std::cout << "  CAUTION: figures hold only where the plant was measured and the model fits; change gains on live "
+               "machinery gradually, under the machine's safety rules.\n";
+}
+
 void run_loop(const LoopArgs& a) {
   refuse_overwriting_input(a.out, {a.plant});
   if (a.controller.empty()) throw InputError("no controller; expected --controller SPEC (e.g. pid:kp=1,ki=10)");
@@ -51,6 +115,10 @@ void run_loop(const LoopArgs& a) {
     std::ifstream in(a.plant);
     std::getline(in, head);
     frf_plant = head.rfind("# benchid frf", 0) == 0 || head.rfind("freq_hz", 0) == 0;
+  }
+  if (!a.sweep.empty()) {
+    run_sweep(a, frf_plant);
+    return;
   }
   const loop::Controller c = loop::parse_controller(a.controller);
   loop::Margins m;
@@ -85,6 +153,21 @@ void run_loop(const LoopArgs& a) {
     st = loop::closed_loop_stability(plant, c, m.f_lo_hz, m.f_hi_hz);
   }
   const double ms_db = 20 * std::log10(m.ms), mt_db = 20 * std::log10(m.mt);
+  // step behaviour of a stable model loop
+  std::optional<loop::StepMetrics> step;
+  std::string step_note = "step metrics need a model plant and a closed loop judged stable";
+  if (!frf_plant && st.judged && st.stable && std::isfinite(m.crossover_hz)) {
+    double lowest = m.crossover_hz;
+    for (const fit::RationalModel* mm : {static_cast<const fit::RationalModel*>(&plant), &c.model})
+      for (const fit::cplx& q : mm->zpk().poles) {
+        const fit::cplx sq = mm->domain == fit::Domain::z ? std::log(q) / mm->sample_time_s : q;
+        if (std::abs(sq) > 0) lowest = std::min(lowest, std::abs(sq) / (2 * M_PI));
+      }
+    lowest = std::max(lowest, m.crossover_hz / 2000);  // at most 2000 crossover periods of waiting
+    const loop::LoopFn lf = [&](double f) { return plant.response(f) * c.model.response(f); };
+    step = loop::step_metrics(lf, m.crossover_hz, lowest);
+    step_note.clear();
+  }
   struct Check {
     const char* name;
     double threshold, value;
@@ -139,6 +222,14 @@ void run_loop(const LoopArgs& a) {
     << "; modulus margin " << fmt("%.3g", 1 / m.ms) << "   [<= " << fmt("%g", a.ms_max_db) << " dB: " << mark(checks[2].pass) << "]\n";
   t << "  peak complementary sensitivity Mt " << fmt("%.4g", m.mt) << " (" << fmt("%.3g dB", mt_db) << ") at " << fmt("%.5g Hz", m.mt_hz) << "\n";
   t << "  closed-loop bandwidth " << (std::isfinite(m.bandwidth_hz) ? fmt("%.5g Hz", m.bandwidth_hz) : std::string("not found in the range")) << " (|T| 3 dB below its low-frequency value)\n";
+  if (step)
+    t << "  step (reference): rise " << fmt("%.4g s", step->rise_time_s) << " (10-90 %), overshoot "
+      << fmt("%.3g %%", step->overshoot_pct) << ", settling " << fmt("%.4g s", step->settling_time_s)
+      << " (2 %), steady-state error " << fmt("%.3g", step->steady_state_error) << "\n"
+      << "  step (output disturbance): peak " << fmt("%.3g", step->disturbance_peak) << ", back within 2 % after "
+      << fmt("%.4g s", step->disturbance_recovery_s) << "\n";
+  else
+    t << "  step: not computed (" << step_note << ")\n";
   t << "  closed-loop stability: " << (st.judged ? (st.stable ? "stable" : "UNSTABLE") : "not judged")
     << (frf_plant && st.judged ? " (inferred)" : "") << " (" << st.reason << ")\n";
   if (band_hi > 0) {
@@ -158,7 +249,6 @@ void run_loop(const LoopArgs& a) {
     }
   }
   t << "  verdict: " << (pass ? "pass" : "FAIL") << " (thresholds: phase and gain margin as common practice, Ms as in Astrom & Murray, Feedback Systems; and a stable closed loop)\n";
-  t << "  not computed yet: step metrics, parameter sweeps\n";
   t << "  CAUTION: " << caution << "\n";
 
   nlohmann::json j;
@@ -193,7 +283,15 @@ void run_loop(const LoopArgs& a) {
                   {x.kind == loop::Crossing::Kind::gain ? "phase_margin_deg" : "gain_margin_db", x.margin}});
   j["crossings"] = cr;
   j["crossings_total"] = m.crossings.size();  // the first 50 are listed
-  j["step"] = nullptr;  // not computed yet
+  if (step)
+    j["step"] = {{"rise_time_s", step->rise_time_s},
+                 {"overshoot_pct", step->overshoot_pct},
+                 {"settling_time_s", step->settling_time_s},
+                 {"steady_state_error", step->steady_state_error},
+                 {"disturbance_peak", step->disturbance_peak},
+                 {"disturbance_recovery_s", step->disturbance_recovery_s}};
+  else
+    j["step"] = nullptr;
   nlohmann::json v = nlohmann::json::array();
   for (const auto& k : checks) v.push_back({{"check", k.name}, {"threshold", k.threshold}, {"value", num_or_null(k.value)}, {"pass", k.pass}});
   v.push_back({{"check", "closed_loop_stable"}, {"pass", st.judged && st.stable}});
@@ -229,6 +327,8 @@ void add_loop_command(CLI::App& app) {
   c->add_option("--pm-min", a->pm_min, "Phase margin threshold, deg (default 45, common practice)");
   c->add_option("--gm-min", a->gm_min, "Gain margin threshold, dB (default 10, common practice)");
   c->add_option("--ms-max", a->ms_max_db, "Peak sensitivity threshold, dB (default 6, Astrom & Murray)");
+  c->add_option("--sweep", a->sweep, "NAME=LO:HI:N: recompute the figures for N values of one controller parameter "
+                "(e.g. kp=0.5:2:10, linear steps) and print a table");
   c->add_option("-o,--out", a->out, "Loop JSON to write (benchid.loop/1)");
   c->add_flag("--json", a->json, "Print only the loop JSON on stdout (the table goes to stderr)");
   c->add_flag("--strict", a->strict, "Exit status 3 when the verdict fails");

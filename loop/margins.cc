@@ -52,12 +52,13 @@ Margins margins(const LoopFn& loop, double f_lo, double f_hi, std::size_t points
     const double a = std::log(std::abs(l[i])), b = std::log(std::abs(l[i + 1]));
     if ((a < 0) != (b < 0) && std::isfinite(a) && std::isfinite(b)) {
       const double fc = refine(lnmag, f[i], f[i + 1]);
-      const double pm = 180.0 + std::arg(loop(fc)) * 180.0 / std::numbers::pi;
-      const double pm_wrapped = pm > 180.0 ? pm - 360.0 : pm;
-      m.crossings.push_back({Crossing::Kind::gain, fc, pm_wrapped});
-      if (pm_wrapped < m.phase_margin_deg) m.phase_margin_deg = pm_wrapped, m.crossover_hz = fc;
-      if (pm_wrapped > 0)
-        m.delay_margin_s = std::min(m.delay_margin_s, pm_wrapped * std::numbers::pi / 180.0 / (2 * std::numbers::pi * fc));
+      const double a = std::arg(loop(fc)) * 180.0 / std::numbers::pi;  // (-180, 180]
+      // phase margin: the smallest rotation (lag or lead) that puts L on -1 at
+      // this crossover; the delay margin needs the lag, which a delay adds
+      const double pm = 180.0 - std::fabs(a), lag = 180.0 + a;
+      m.crossings.push_back({Crossing::Kind::gain, fc, pm});
+      if (pm < m.phase_margin_deg) m.phase_margin_deg = pm, m.crossover_hz = fc;
+      m.delay_margin_s = std::min(m.delay_margin_s, lag * std::numbers::pi / 180.0 / (2 * std::numbers::pi * fc));
     }
     const double ia = l[i].imag(), ib = l[i + 1].imag();
     if ((ia < 0) != (ib < 0) && (l[i].real() < 0 || l[i + 1].real() < 0)) {

@@ -1,10 +1,14 @@
 // Stability margins of a loop gain L(f) = C(f) P(f) (negative feedback).
 //
 //   gain crossover:  |L| = 1, a root of ln|L(f)|, refined by bisection in log f;
-//                    phase margin PM = 180 + arg L (deg, in (-180, 180])
+//                    phase margin PM = 180 - |arg L| (deg, arg in (-180, 180]): the
+//                    smallest rotation, lag or lead, that puts L on -1 there (with
+//                    several crossovers the phase may have come round from above;
+//                    stability itself is judged by stability.h, not by PM's sign)
 //   phase crossover: L real and negative, a root of Im L(f) with Re L < 0
 //                    (no phase unwrapping needed); gain margin GM = -20 log10 |L|
-//   delay margin     DM = PM [rad] / (2 pi f_c), the smallest over crossovers with PM > 0
+//   delay margin     DM = (180 + arg L) [rad] / (2 pi f_c): the lag a delay must add to
+//                    reach -1 at that crossover, the smallest over crossovers
 //   Ms = max |1/(1 + L)|, Mt = max |L/(1 + L)| (golden-section refined maxima)
 //   bandwidth: the lowest frequency where |T| falls 3 dB below |T| at the low end.
 // The headline gain margin is the smallest over phase crossings where |L| < 1

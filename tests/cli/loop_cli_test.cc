@@ -86,6 +86,36 @@ TEST(LoopCli, FrfPlantGivesMarginsWithUncertainty) {
   EXPECT_NE(r.err.find("(inferred)"), std::string::npos) << r.err;
 }
 
+TEST(LoopCli, StepMetricsAndSweep) {
+  TempDir d;
+  // L = 1/(s(s+1)(s+2)): T = 1/(s^3 + 3 s^2 + 2 s + 1), OS 14.462 %, t_r 2.677 s,
+  // t_s 12.360 s (CHECK_VALUES.md s.6)
+  const std::string p = textbook_plant(d);
+  Outcome r = run(d, "loop " + p + " --controller gain:k=1 --json");
+  ASSERT_EQ(r.code, 0) << r.err;
+  const auto j = nlohmann::json::parse(r.out);
+  EXPECT_NEAR(j["step"]["overshoot_pct"].get<double>(), 14.462, 0.02);
+  EXPECT_NEAR(j["step"]["rise_time_s"].get<double>(), 2.677, 0.005);
+  EXPECT_NEAR(j["step"]["settling_time_s"].get<double>(), 12.360, 0.02);
+  // unstable: no step metrics
+  r = run(d, "loop " + p + " --controller gain:k=8 --json");
+  EXPECT_TRUE(nlohmann::json::parse(r.out)["step"].is_null());
+  // the everyday question: how much gain can I add? GM = 20 log10(6/k) [D]
+  r = run(d, "loop " + p + " --controller gain:k=1 --sweep k=1:7:4");
+  ASSERT_EQ(r.code, 0) << r.err;
+  auto row = [&](const std::string& k) {
+    const auto at = r.out.find("\n  " + k + " ");
+    return at == std::string::npos ? std::string() : r.out.substr(at + 1, r.out.find('\n', at + 1) - at - 1);
+  };
+  EXPECT_NE(row("1").find(" 15.6 "), std::string::npos) << r.out;      // 20 log10 6 = 15.56
+  EXPECT_NE(row("3").find(" 6.02 "), std::string::npos) << r.out;      // 20 log10 2
+  EXPECT_NE(row("7").find(" -1.34 "), std::string::npos) << r.out;     // 20 log10(6/7): the gain must fall
+  EXPECT_NE(row("7").find("UNSTABLE"), std::string::npos) << r.out;
+  r = run(d, "loop " + p + " --controller gain:k=1 --sweep kp=1:2:3");
+  EXPECT_EQ(r.code, 2);
+  EXPECT_NE(r.err.find("has no parameter 'kp'"), std::string::npos) << r.err;
+}
+
 TEST(LoopCli, RefusesWhatItCannotAnalyse) {
   TempDir d;
   const std::string p = textbook_plant(d);

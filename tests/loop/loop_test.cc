@@ -300,3 +300,58 @@ TEST(FrfLoop, MonteCarloSpreadScalesWithTheMeasurementError) {
 }
 
 }  // namespace
+
+#include "loop/step.h"
+
+namespace {
+
+TEST(Step, SecondOrderClosedLoopsMatchTheTable) {
+  // L = wn^2/(s(s + 2 zeta wn)), wn = 1: T is the standard second order;
+  // CHECK_VALUES.md s.6 [S] (scipy.signal.step, 400 001 points): OS %, t_r 10-90 %, t_s 2 %;
+  // OS = exp(-pi zeta/sqrt(1 - zeta^2)) [D]
+  const double rows[][4] = {{0.2, 52.6621, 1.2034, 19.602}, {0.5, 16.3034, 1.6376, 8.0764}, {0.7071, 4.3214, 2.1480, 5.9626}};
+  for (const auto& r : rows) {
+    const double z = r[0];
+    const LoopFn l = [z](double f) {
+      const cplx s(0, 2 * M_PI * f);
+      return 1.0 / (s * (s + 2 * z));
+    };
+    const StepMetrics m = step_metrics(l, 1 / (2 * M_PI), z / (2 * M_PI));
+    // the response is sampled at 400 x the crossover: interpolation and the
+    // band limit leave ~1e-4 relative
+    EXPECT_NEAR(m.overshoot_pct, r[1], 2e-3 * r[1]) << z;
+    EXPECT_NEAR(m.overshoot_pct, 100 * std::exp(-M_PI * z / std::sqrt(1 - z * z)), 2e-3 * r[1]) << z;
+    EXPECT_NEAR(m.rise_time_s, r[2], 2e-3 * r[2]) << z;
+    EXPECT_NEAR(m.settling_time_s, r[3], 3e-3 * r[3]) << z;
+    EXPECT_NEAR(m.steady_state_error, 0.0, 1e-6);
+  }
+}
+
+TEST(Step, ThirdOrderLoopAndADelayLoop) {
+  // T = 1/(s^3 + 3 s^2 + 2 s + 1) from L = 1/(s(s+1)(s+2)): OS 14.462 %,
+  // t_r 2.677 s, t_s 12.360 s (CHECK_VALUES.md s.6 [S])
+  const LoopFn l = [](double f) {
+    const cplx s(0, 2 * M_PI * f);
+    return 1.0 / (s * (s + 1.0) * (s + 2.0));
+  };
+  const StepMetrics m = step_metrics(l, 0.445748 / (2 * M_PI), 0.1);
+  EXPECT_NEAR(m.overshoot_pct, 14.462, 0.02);
+  EXPECT_NEAR(m.rise_time_s, 2.677, 0.005);
+  EXPECT_NEAR(m.settling_time_s, 12.360, 0.02);
+  // a delay is exact: e^{-sT}/s with T = 0.5 has T(s) = e^{-sT}/(s + e^{-sT}); its
+  // step response starts only after the delay [D]
+  const LoopFn d = [](double f) {
+    const cplx s(0, 2 * M_PI * f);
+    return std::exp(-0.5 * s) / s;
+  };
+  const StepMetrics md = step_metrics(d, 1 / (2 * M_PI), 0.05);
+  const std::size_t before = static_cast<std::size_t>(0.45 / md.dt_s);
+  double worst = 0;
+  for (std::size_t i = 0; i < before && i < md.y.size(); ++i) worst = std::max(worst, std::fabs(md.y[i]));
+  EXPECT_LT(worst, 1e-3);  // nothing before 0.5 s, but for the band limit's ripple
+  // type-1 loop: no steady-state error; an output disturbance is rejected
+  EXPECT_NEAR(md.steady_state_error, 0.0, 1e-6);
+  EXPECT_NEAR(md.disturbance_peak, 1.0, 0.05);
+}
+
+}  // namespace
