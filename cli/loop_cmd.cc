@@ -69,8 +69,15 @@ void run_sweep(const LoopArgs& a, bool frf_plant) {
   const std::size_t vstart = at + name.size() + 1, vend = a.controller.find_first_of(",;*@", vstart);
   std::unique_ptr<ident::Frf> frf;
   std::unique_ptr<fit::RationalModel> plant;
-  if (frf_plant) frf = std::make_unique<ident::Frf>(ident::read_frf_csv(a.plant));
-  else plant = std::make_unique<fit::RationalModel>(fit::read_model_json(a.plant));
+  std::unique_ptr<loop::PlantOnGrid> grid;  // the plant evaluated once for all values
+  std::pair<double, double> range;
+  if (frf_plant) {
+    frf = std::make_unique<ident::Frf>(ident::read_frf_csv(a.plant));
+  } else {
+    plant = std::make_unique<fit::RationalModel>(fit::read_model_json(a.plant));
+    range = loop::loop_range(*plant, loop::parse_controller(a.controller));
+    grid = std::make_unique<loop::PlantOnGrid>(*plant, range.first, range.second, loop::MarginOptions{}.points);
+  }
   std::cout << "benchid loop --sweep " << a.sweep << " on " << a.plant << "\n"
             << "  " << name << "          GM dB    PM deg     Ms dB   crossover Hz   closed loop\n";
   const int n = static_cast<int>(nn);
@@ -90,8 +97,11 @@ void run_sweep(const LoopArgs& a, bool frf_plant) {
       m = fm.nominal;
       if (fm.inferred_unstable >= 0) stable = fm.inferred_unstable == 0 ? "stable (inferred)" : "UNSTABLE (inferred)";
     } else {
-      m = loop::model_margins(*plant, c);
-      const loop::Stability st = loop::closed_loop_stability(*plant, c, m.f_lo_hz, m.f_hi_hz);
+      m = loop::margins([&](double f) { return (*grid)(f) * c.model.response(f); }, range.first, range.second,
+                        loop::MarginOptions{}.points);
+      // a coarser Nyquist grid for the table (damping down to ~5e-3); the single-loop
+      // command uses the full one
+      const loop::Stability st = loop::closed_loop_stability(*plant, c, m.f_lo_hz, m.f_hi_hz, 20000);
       if (st.judged) stable = st.stable ? "stable" : "UNSTABLE";
     }
     // no crossing where the gain may rise, one above 0 dB: the gain must fall (negative margin)
@@ -106,7 +116,18 @@ void run_sweep(const LoopArgs& a, bool frf_plant) {
                "machinery gradually, under the machine's safety rules.\n";
 }
 
-void run_loop(const LoopArgs& a) {
+// --controller FILE.json: {"format": "benchid.controller/1", "spec": "..."}
+std::string controller_spec(const std::string& arg) {
+  if (arg.size() < 5 || arg.compare(arg.size() - 5, 5, ".json") != 0) return arg;
+  const nlohmann::json j = read_json_file(arg, "a controller JSON {\"format\": \"benchid.controller/1\", \"spec\": ...}");
+  if (!j.is_object() || j.value("format", "") != "benchid.controller/1" || !j.contains("spec") || !j["spec"].is_string())
+    throw InputError(arg + ": expected {\"format\": \"benchid.controller/1\", \"spec\": \"FORM:PARAMS...\"}");
+  return j["spec"].get<std::string>();
+}
+
+void run_loop(const LoopArgs& a_in) {
+  LoopArgs a = a_in;
+  if (!a.controller.empty()) a.controller = controller_spec(a.controller);
   refuse_overwriting_input(a.out, {a.plant});
   if (a.controller.empty()) throw InputError("no controller; expected --controller SPEC (e.g. pid:kp=1,ki=10)");
   bool frf_plant = false;
@@ -322,7 +343,7 @@ void add_loop_command(CLI::App& app) {
   c->add_option("--band", a->band, "FRF plant: use only lines in LO:HI, Hz (default: all usable lines)");
   c->add_option("--draws", a->draws, "FRF plant: Monte Carlo draws of the per-line random error for the +- figures "
                 "(default 200; 0: none)");
-  c->add_option("--controller", a->controller, "Controller SPEC, e.g. pid:kp=2,ki=10,kd=0.05,tf=0.002*notch:f=50,width=10,depth=20 "
+  c->add_option("--controller", a->controller, "Controller SPEC (or a FILE.json holding {\"format\": \"benchid.controller/1\", \"spec\": SPEC}), e.g. pid:kp=2,ki=10,kd=0.05,tf=0.002*notch:f=50,width=10,depth=20 "
                 "(forms gain, pid, lead, lag, notch, poly, roots; @dt=SECONDS for a discrete controller; see README)");
   c->add_option("--pm-min", a->pm_min, "Phase margin threshold, deg (default 45, common practice)");
   c->add_option("--gm-min", a->gm_min, "Gain margin threshold, dB (default 10, common practice)");

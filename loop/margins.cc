@@ -10,6 +10,10 @@ namespace benchid::loop {
 
 namespace {
 
+double grid_frequency(double lo, double hi, std::size_t points, std::size_t i) {
+  return lo * std::pow(hi / lo, static_cast<double>(i) / static_cast<double>(points - 1));
+}
+
 // bisection in log f on a sign change of g between f0 and f1
 double refine(const std::function<double(double)>& g, double f0, double f1) {
   double a = std::log(f0), b = std::log(f1), ga = g(f0);
@@ -43,7 +47,7 @@ Margins margins(const LoopFn& loop, double f_lo, double f_hi, std::size_t points
   std::vector<double> f(points);
   std::vector<cplx> l(points);
   for (std::size_t i = 0; i < points; ++i) {
-    f[i] = f_lo * std::pow(f_hi / f_lo, static_cast<double>(i) / static_cast<double>(points - 1));
+    f[i] = grid_frequency(f_lo, f_hi, points, i);
     l[i] = loop(f[i]);
   }
   auto lnmag = [&](double fr) { return std::log(std::abs(loop(fr))); };
@@ -111,8 +115,8 @@ Margins margins(const LoopFn& loop, double f_lo, double f_hi, std::size_t points
   return m;
 }
 
-Margins model_margins(const fit::RationalModel& plant, const Controller& c, const MarginOptions& o) {
-  // range: 3 decades below the smallest and above the largest pole or zero
+std::pair<double, double> loop_range(const fit::RationalModel& plant, const Controller& c, const MarginOptions& o) {
+  // 3 decades below the smallest and above the largest pole or zero
   double lo = std::numeric_limits<double>::infinity(), hi = 0;
   auto scan = [&](const fit::RationalModel& m) {
     auto take = [&](cplx x) {
@@ -120,9 +124,11 @@ Margins model_margins(const fit::RationalModel& plant, const Controller& c, cons
       const double w = std::abs(s);
       if (w > 0 && std::isfinite(w)) lo = std::min(lo, w), hi = std::max(hi, w);
     };
-    const fit::Zpk z = m.zpk();
-    for (const cplx& x : z.poles) take(x);
-    for (const cplx& x : z.zeros) take(x);
+    // poles directly; zeros (roots of the expanded numerator) only for low
+    // orders, where they are cheap and well conditioned
+    for (const cplx& x : m.poles) take(x);
+    if (m.poles.size() <= 20)
+      for (const cplx& x : m.zpk().zeros) take(x);
     if (m.delay_s > 0) hi = std::max(hi, 1.0 / m.delay_s), lo = std::min(lo, 1.0 / m.delay_s);
   };
   scan(plant);
@@ -132,8 +138,30 @@ Margins model_margins(const fit::RationalModel& plant, const Controller& c, cons
   double f_hi = o.f_hi_hz > 0 ? o.f_hi_hz : hi * 1000 / (2 * std::numbers::pi);
   for (const fit::RationalModel* m : {&plant, &c.model})
     if (m->domain == fit::Domain::z) f_hi = std::min(f_hi, 0.4999 / m->sample_time_s);
+  return {f_lo, f_hi};
+}
+
+Margins model_margins(const fit::RationalModel& plant, const Controller& c, const MarginOptions& o) {
+  const auto [f_lo, f_hi] = loop_range(plant, c, o);
   const LoopFn loop = [&](double f) { return plant.response(f) * c.model.response(f); };
   return margins(loop, f_lo, f_hi, o.points);
+}
+
+PlantOnGrid::PlantOnGrid(const fit::RationalModel& plant, double lo, double hi, std::size_t points)
+    : plant_(plant), lo_(lo), hi_(hi) {
+  for (std::size_t i = 0; i < points; ++i) {
+    f_.push_back(grid_frequency(lo, hi, points, i));
+    h_.push_back(plant.response(f_.back()));
+  }
+}
+
+cplx PlantOnGrid::operator()(double f) const {
+  if (f >= lo_ && f <= hi_ && f_.size() > 1) {
+    const double x = std::log(f / lo_) / std::log(hi_ / lo_) * static_cast<double>(f_.size() - 1);
+    const auto i = static_cast<std::size_t>(std::llround(x));
+    if (i < f_.size() && f_[i] == f) return h_[i];
+  }
+  return plant_.response(f);
 }
 
 }  // namespace benchid::loop

@@ -58,4 +58,21 @@ Margins margins(const LoopFn& loop, double f_lo_hz, double f_hi_hz, std::size_t 
 // when the plant is continuous: the plant is then evaluated at f, valid below Nyquist).
 Margins model_margins(const fit::RationalModel& plant, const Controller& c, const MarginOptions& o = {});
 
+// The frequency range model_margins() searches for this plant and controller.
+std::pair<double, double> loop_range(const fit::RationalModel& plant, const Controller& c, const MarginOptions& o = {});
+
+// A plant's response on the grid margins() uses (the same log-spaced points),
+// evaluated once, for sweeps where only the controller changes; exact off the grid.
+class PlantOnGrid {
+ public:
+  PlantOnGrid(const fit::RationalModel& plant, double f_lo_hz, double f_hi_hz, std::size_t points);
+  cplx operator()(double f_hz) const;
+
+ private:
+  const fit::RationalModel& plant_;
+  double lo_, hi_;
+  std::vector<double> f_;
+  std::vector<cplx> h_;
+};
+
 }  // namespace benchid::loop

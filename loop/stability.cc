@@ -1,5 +1,9 @@
 #include "loop/stability.h"
 
+#include <Eigen/Dense>
+
+#include "fit/detail/hold.h"
+
 #include <cmath>
 #include <numbers>
 #include <sstream>
@@ -24,7 +28,8 @@ std::vector<double> add(std::vector<double> a, std::vector<double> b) {
 }
 }  // namespace
 
-Stability closed_loop_stability(const RationalModel& p, const Controller& c, double f_lo, double f_hi) {
+Stability closed_loop_stability(const RationalModel& p, const Controller& c, double f_lo, double f_hi,
+                                std::size_t nyquist_points) {
   Stability st;
   const RationalModel& k = c.model;
   const bool both_s = p.domain == Domain::s && k.domain == Domain::s;
@@ -52,7 +57,7 @@ Stability closed_loop_stability(const RationalModel& p, const Controller& c, dou
   std::ostringstream why;
   if (both_s) {
     // Nyquist count along the grid
-    const std::size_t n = 200000;
+    const std::size_t n = std::max<std::size_t>(nyquist_points, 1000);
     double delta = 0, prev = 0;
     bool first = true;
     for (std::size_t i = 0; i < n; ++i) {
@@ -80,17 +85,39 @@ Stability closed_loop_stability(const RationalModel& p, const Controller& c, dou
   // closed-loop poles of a rational loop
   const bool rational = both_z || (p.delay_s == 0 && k.delay_s == 0);
   if (rational && p.proportional == 0 && k.proportional == 0) {
-    const fit::Polynomial pp = p.polynomial(), kp = k.polynomial();
-    std::vector<double> dd = mul(pp.den, kp.den), nn = mul(pp.num, kp.num);
-    if (both_z) {
+    if (both_s) {
+      // eigenvalues of the closed-loop state matrix (well conditioned at any
+      // order, unlike the roots of an expanded characteristic polynomial):
+      // u = Cc xc + Dc e, e = -y, y = Cp xp + Dp u
+      const fit::detail::EigenStateSpace ps = fit::detail::to_eigen(p.state_space()), ks = fit::detail::to_eigen(k.state_space());
+      const Eigen::Index np = ps.a.rows(), nk = ks.a.rows();
+      const double g = 1.0 + ks.d * ps.d;
+      if (std::fabs(g) < 1e-12) {
+        st.reason = "1 + Dc Dp = 0: the loop is not well posed";
+        return st;
+      }
+      // u = (Cc xc - Dc Cp xp)/g, y = Cp xp + Dp u
+      Eigen::MatrixXd acl = Eigen::MatrixXd::Zero(np + nk, np + nk);
+      const Eigen::RowVectorXd u_xp = -ks.d * ps.c.transpose() / g, u_xc = ks.c.transpose() / g;
+      const Eigen::RowVectorXd y_xp = ps.c.transpose() + ps.d * u_xp, y_xc = ps.d * u_xc;
+      acl.topLeftCorner(np, np) = ps.a + ps.b * u_xp;
+      acl.topRightCorner(np, nk) = ps.b * u_xc;
+      acl.bottomLeftCorner(nk, np) = -ks.b * y_xp;
+      acl.bottomRightCorner(nk, nk) = ks.a - ks.b * y_xc;
+      Eigen::EigenSolver<Eigen::MatrixXd> es(acl, false);
+      st.closed_loop_poles.clear();
+      for (Eigen::Index i = 0; i < es.eigenvalues().size(); ++i) st.closed_loop_poles.push_back(es.eigenvalues()(i));
+    } else {
+      const fit::Polynomial pp = p.polynomial(), kp = k.polynomial();
+      std::vector<double> dd = mul(pp.den, kp.den), nn = mul(pp.num, kp.num);
       const long shift = std::lround((p.delay_s + k.delay_s) / p.sample_time_s);
       for (long i = 0; i < shift; ++i) dd.push_back(0.0);  // z^N in the denominator
+      st.closed_loop_poles = fit::polynomial_roots(add(dd, nn));
     }
-    st.closed_loop_poles = fit::polynomial_roots(add(dd, nn));
     st.poles_available = true;
     int unstable = 0;
     for (const cplx& q : st.closed_loop_poles)
-      if (both_s ? q.real() >= 0 : std::abs(q) >= 1) ++unstable;
+      if (both_s ? q.real() >= -1e-9 * std::max(1.0, std::abs(q)) : std::abs(q) >= 1) ++unstable;
     if (st.nyquist_unstable >= 0 && unstable != st.nyquist_unstable) {
       why << "; DISAGREES with the closed-loop poles (" << unstable << " unstable): not judged";
       st.reason = why.str();

@@ -29,6 +29,9 @@ struct Stability {
   std::string reason;        // how it was judged, or why not
 };
 
-Stability closed_loop_stability(const fit::RationalModel& plant, const Controller& c, double f_lo_hz, double f_hi_hz);
+// nyquist_points: the log grid of the count (enough to follow arg(1 + L)
+// across the sharpest resonance: the default resolves damping down to ~1e-4)
+Stability closed_loop_stability(const fit::RationalModel& plant, const Controller& c, double f_lo_hz, double f_hi_hz,
+                                std::size_t nyquist_points = 200000);
 
 }  // namespace benchid::loop

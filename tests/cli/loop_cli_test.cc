@@ -111,6 +111,10 @@ TEST(LoopCli, StepMetricsAndSweep) {
   EXPECT_NE(row("3").find(" 6.02 "), std::string::npos) << r.out;      // 20 log10 2
   EXPECT_NE(row("7").find(" -1.34 "), std::string::npos) << r.out;     // 20 log10(6/7): the gain must fall
   EXPECT_NE(row("7").find("UNSTABLE"), std::string::npos) << r.out;
+  d.write("ctrl.json", "{\"format\": \"benchid.controller/1\", \"spec\": \"gain:k=3\"}");
+  r = run(d, "loop " + p + " --controller " + d.file("ctrl.json") + " --json");
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_NEAR(nlohmann::json::parse(r.out)["gain_margin_db"].get<double>(), 20 * std::log10(2.0), 1e-4);
   r = run(d, "loop " + p + " --controller gain:k=1 --sweep kp=1:2:3");
   EXPECT_EQ(r.code, 2);
   EXPECT_NE(r.err.find("has no parameter 'kp'"), std::string::npos) << r.err;
