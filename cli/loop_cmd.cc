@@ -1,4 +1,5 @@
 // benchid loop PLANT.json --controller SPEC [--json] [-o LOOP.json]
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -33,6 +34,7 @@ struct LoopArgs {
   bool json = false, strict = false;
   int plant_integrators = 0;
   std::string band, sweep;
+  double tracking_hz = 0;
   std::size_t draws = loop::FrfLoopOptions{}.draws;
 };
 
@@ -174,6 +176,15 @@ void run_loop(const LoopArgs& a_in) {
     st = loop::closed_loop_stability(plant, c, m.f_lo_hz, m.f_hi_hz);
   }
   const double ms_db = 20 * std::log10(m.ms), mt_db = 20 * std::log10(m.mt);
+  // tracking error |S| = 1/|1 + L| at a stated frequency: a decade below the
+  // crossover unless given (L = 100 leaves about 1 %: 1/(1 + 100))
+  double track_hz = a.tracking_hz > 0 ? a.tracking_hz : (std::isfinite(m.crossover_hz) ? m.crossover_hz / 10 : m.f_lo_hz);
+  track_hz = std::clamp(track_hz, m.f_lo_hz, m.f_hi_hz);
+  const auto loop_at = [&](double f) {
+    if (frf_plant) return loop::margins_loop_value(fm, f);
+    return plant.response(f) * c.model.response(f);
+  };
+  const double tracking = 1.0 / std::abs(1.0 + loop_at(track_hz));
   // step behaviour of a stable model loop
   std::optional<loop::StepMetrics> step;
   std::string step_note = "step metrics need a model plant and a closed loop judged stable";
@@ -242,6 +253,8 @@ void run_loop(const LoopArgs& a_in) {
   t << "  peak sensitivity Ms " << fmt("%.4g", m.ms) << " (" << fmt("%.3g", ms_db) << pm_unc(fm.ms_sd_db) << " dB) at " << fmt("%.5g Hz", m.ms_hz)
     << "; modulus margin " << fmt("%.3g", 1 / m.ms) << "   [<= " << fmt("%g", a.ms_max_db) << " dB: " << mark(checks[2].pass) << "]\n";
   t << "  peak complementary sensitivity Mt " << fmt("%.4g", m.mt) << " (" << fmt("%.3g dB", mt_db) << ") at " << fmt("%.5g Hz", m.mt_hz) << "\n";
+  t << "  tracking error |1/(1+L)| " << fmt("%.3g %%", 100 * tracking) << " at " << fmt("%.4g Hz", track_hz)
+    << (a.tracking_hz > 0 ? "" : " (a decade below the crossover)") << "\n";
   t << "  closed-loop bandwidth " << (std::isfinite(m.bandwidth_hz) ? fmt("%.5g Hz", m.bandwidth_hz) : std::string("not found in the range")) << " (|T| 3 dB below its low-frequency value)\n";
   if (step)
     t << "  step (reference): rise " << fmt("%.4g s", step->rise_time_s) << " (10-90 %), overshoot "
@@ -287,6 +300,7 @@ void run_loop(const LoopArgs& a_in) {
   j["peak_complementary_db"] = mt_db;
   j["peak_complementary_hz"] = m.mt_hz;
   j["bandwidth_hz"] = num_or_null(m.bandwidth_hz);
+  j["tracking_error"] = {{"freq_hz", track_hz}, {"fraction", tracking}};
   j["closed_loop_stable"] = st.judged ? nlohmann::json(st.stable) : nlohmann::json(nullptr);
   j["stability_basis"] = st.reason;
   j["plant_kind"] = frf_plant ? "frf" : "model";
@@ -348,6 +362,8 @@ void add_loop_command(CLI::App& app) {
   c->add_option("--pm-min", a->pm_min, "Phase margin threshold, deg (default 45, common practice)");
   c->add_option("--gm-min", a->gm_min, "Gain margin threshold, dB (default 10, common practice)");
   c->add_option("--ms-max", a->ms_max_db, "Peak sensitivity threshold, dB (default 6, Astrom & Murray)");
+  c->add_option("--tracking-hz", a->tracking_hz, "Frequency where the tracking error |1/(1+L)| is stated, Hz (default: a "
+                "decade below the crossover)");
   c->add_option("--sweep", a->sweep, "NAME=LO:HI:N: recompute the figures for N values of one controller parameter "
                 "(e.g. kp=0.5:2:10, linear steps) and print a table");
   c->add_option("-o,--out", a->out, "Loop JSON to write (benchid.loop/1)");

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <numbers>
+#include <memory>
 #include <random>
 
 #include "ident/error.h"
@@ -70,8 +71,11 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
   out.left_out = left_out;
   const double lo = f.front(), hi = f.back();
   auto loop_of = [&](const Interp& p) { return [&p, &c](double fr) { return p(fr) * c.model.response(fr); }; };
-  const Interp nominal(f, h);
+  const auto nominal_ptr = std::make_shared<Interp>(f, h);
+  const Interp& nominal = *nominal_ptr;
   out.nominal = margins(loop_of(nominal), lo, hi, o.points);
+  const fit::RationalModel cm = c.model;
+  out.loop = [nominal_ptr, cm](double fr) { return (*nominal_ptr)(fr) * cm.response(fr); };
 
   // Nyquist count over the band, assuming an open-loop stable plant
   {
@@ -123,5 +127,7 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
   }
   return out;
 }
+
+cplx margins_loop_value(const FrfMargins& fm, double f_hz) { return fm.loop(f_hz); }
 
 }  // namespace benchid::loop

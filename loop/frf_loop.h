@@ -16,6 +16,7 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
 
 #include "ident/frf.h"
 #include "loop/margins.h"
@@ -34,6 +35,7 @@ struct FrfMargins {
   // Nyquist count over the band under the assumption (-1: not counted)
   int inferred_unstable = -1;
   std::string stability_note;
+  std::function<cplx(double)> loop;  // the nominal interpolated loop, for further figures
 };
 
 struct FrfLoopOptions {
@@ -48,5 +50,8 @@ struct FrfLoopOptions {
 };
 
 FrfMargins frf_margins(const ident::Frf& plant, const Controller& c, const FrfLoopOptions& o = {});
+
+// L at f from the interpolated FRF plant used by frf_margins (inside its band).
+cplx margins_loop_value(const FrfMargins& fm, double f_hz);
 
 }  // namespace benchid::loop

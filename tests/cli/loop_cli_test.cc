@@ -120,6 +120,26 @@ TEST(LoopCli, StepMetricsAndSweep) {
   EXPECT_NE(r.err.find("has no parameter 'kp'"), std::string::npos) << r.err;
 }
 
+TEST(LoopCli, TrackingErrorAndALoopWithoutCrossover) {
+  TempDir d;
+  // 100/(s/10 + 1) with a unit controller: |L| = 100 at low frequency leaves
+  // 1/(1 + 100) = 0.990 % (CHECK_VALUES.md s.9 [D]) at 0.01 Hz
+  d.write("p100.json", benchid::fit::model_json(benchid::fit::from_zpk(benchid::fit::Zpk{{}, {-10.0}, 1000.0})));
+  Outcome r = run(d, "loop " + d.file("p100.json") + " --controller gain:k=1 --tracking-hz 0.01 --json");
+  ASSERT_EQ(r.code, 0) << r.err;
+  auto j = nlohmann::json::parse(r.out);
+  EXPECT_NEAR(j["tracking_error"]["fraction"].get<double>(), 1 / 101.0, 1e-5);
+  // 0.5/(s + 1): |L| < 1 everywhere: no gain crossover, phase margin infinite (null)
+  d.write("small.json", benchid::fit::model_json(benchid::fit::from_zpk(benchid::fit::Zpk{{}, {-1.0}, 0.5})));
+  r = run(d, "loop " + d.file("small.json") + " --controller gain:k=1 --json");
+  ASSERT_EQ(r.code, 0) << r.err;
+  j = nlohmann::json::parse(r.out);
+  EXPECT_TRUE(j["phase_margin_deg"].is_null());
+  EXPECT_TRUE(j["gain_margin_db"].is_null());
+  EXPECT_EQ(j["closed_loop_stable"], true);
+  EXPECT_NE(r.err.find("infinite (no gain crossover)"), std::string::npos) << r.err;
+}
+
 TEST(LoopCli, RefusesWhatItCannotAnalyse) {
   TempDir d;
   const std::string p = textbook_plant(d);
