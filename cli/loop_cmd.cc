@@ -197,7 +197,9 @@ void run_loop(const LoopArgs& a_in) {
       }
     lowest = std::max(lowest, m.crossover_hz / 2000);  // at most 2000 crossover periods of waiting
     const loop::LoopFn lf = [&](double f) { return plant.response(f) * c.model.response(f); };
-    step = loop::step_metrics(lf, m.crossover_hz, lowest);
+    loop::LoopFn ref = nullptr;
+    if (c.setpoint_free) ref = [&](double f) { return plant.response(f) * c.reference_path.response(f); };
+    step = loop::step_metrics(lf, m.crossover_hz, lowest, ref);
     step_note.clear();
   }
   struct Check {

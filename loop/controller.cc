@@ -99,7 +99,15 @@ fit::Zpk from_poly(const std::vector<double>& num, const std::vector<double>& de
   return z;
 }
 
-fit::Zpk factor(const std::string& item) {
+// set by factor() when a pid factor asks for the setpoint-free form: the
+// reference path's factor ki/s replaces that pid in the product
+struct FactorResult {
+  fit::Zpk zpk;
+  bool setpoint_free = false;
+  fit::Zpk reference;
+};
+
+fit::Zpk factor(const std::string& item, FactorResult* extra = nullptr) {
   const auto colon = item.find(':');
   if (colon == std::string::npos)
     throw InputError("controller '" + item + "': expected FORM:PARAMS with FORM one of gain, pid, lead, lag, notch, poly, roots");
@@ -112,9 +120,20 @@ fit::Zpk factor(const std::string& item) {
     return fit::Zpk{{}, {}, k};
   }
   if (form == "pid") {
+    bool free_form = false;
+    if (auto it = p.find("setpoint"); it != p.end()) {
+      if (it->second.size() != 1 || (it->second[0] != "free" && it->second[0] != "error"))
+        throw InputError("controller pid: setpoint must be 'free' (P and D on the measurement) or 'error'");
+      free_form = it->second[0] == "free";
+      p.erase(it);
+    }
     const double kp = get(p, form, "kp", false), ki = get(p, form, "ki", false), kd = get(p, form, "kd", false),
                  tf = get(p, form, "tf", false);
-    no_leftovers(p, form, "kp, ki, kd, tf");
+    no_leftovers(p, form, "kp, ki, kd, tf, setpoint");
+    if (free_form) {
+      if (!(ki != 0)) throw InputError("controller pid: setpoint=free needs ki: the reference enters through ki/s only");
+      if (extra) extra->setpoint_free = true, extra->reference = fit::Zpk{{}, {0.0}, ki};
+    }
     if (kd != 0 && !(tf > 0))
       throw InputError("controller pid: kd = " + fmt_num(kd) + " without a derivative filter is improper; expected tf > 0 s");
     if (tf < 0) throw InputError("controller pid: tf = " + fmt_num(tf) + " s; expected tf >= 0");
@@ -189,16 +208,27 @@ Controller parse_controller(const std::string& spec) {
   std::string body = spec, tail;
   const auto at = spec.find('@');
   if (at != std::string::npos) body = spec.substr(0, at), tail = spec.substr(at + 1);
-  fit::Zpk total{{}, {}, 1.0};
+  fit::Zpk total{{}, {}, 1.0}, reference{{}, {}, 1.0};
   std::size_t i = 0;
   while (i <= body.size()) {
     std::size_t j = body.find('*', i);
     if (j == std::string::npos) j = body.size();
-    const fit::Zpk z = factor(body.substr(i, j - i));
+    FactorResult extra;
+    const fit::Zpk z = factor(body.substr(i, j - i), &extra);
     total.zeros.insert(total.zeros.end(), z.zeros.begin(), z.zeros.end());
     total.poles.insert(total.poles.end(), z.poles.begin(), z.poles.end());
     total.gain *= z.gain;
+    const fit::Zpk& rz = extra.setpoint_free ? extra.reference : z;
+    if (extra.setpoint_free) c.setpoint_free = true;
+    reference.zeros.insert(reference.zeros.end(), rz.zeros.begin(), rz.zeros.end());
+    reference.poles.insert(reference.poles.end(), rz.poles.begin(), rz.poles.end());
+    reference.gain *= rz.gain;
     i = j + 1;
+  }
+  if (c.setpoint_free) {
+    if (spec.find('@') != std::string::npos)
+      throw InputError("controller '" + spec + "': the setpoint-free form is continuous only here (no @dt)");
+    c.reference_path = fit::from_zpk(reference);
   }
   if (total.zeros.size() > total.poles.size())
     throw InputError("controller '" + spec + "' is improper (" + std::to_string(total.zeros.size()) + " zeros, " +

@@ -50,19 +50,19 @@ double last_outside(const std::vector<double>& y, double dt, double target, doub
 
 }  // namespace
 
-StepMetrics step_metrics(const LoopFn& loop, double f_scale_hz, double low_hz) {
+StepMetrics step_metrics(const LoopFn& loop, double f_scale_hz, double low_hz, const LoopFn& reference) {
   if (!(f_scale_hz > 0) || !(low_hz > 0)) throw InputError("step metrics need positive time scales");
   const double fs = 400 * f_scale_hz;
   const double duration = std::max(60.0 / (2 * M_PI * low_hz), 60.0 / f_scale_hz);
   std::size_t n = 1024;
   while (static_cast<double>(n) / fs < 2 * duration && n < (std::size_t{1} << 24)) n *= 2;
   auto t_of = [&](double f) {
-    if (f == 0) {
-      const cplx l = loop(1e-9 * f_scale_hz);  // the DC limit (integrators make L infinite at 0)
-      return std::isfinite(std::abs(l)) ? l / (1.0 + l) : cplx(1.0);
-    }
-    const cplx l = loop(f);
-    return l / (1.0 + l);
+    const double fe = f == 0 ? 1e-9 * f_scale_hz : f;  // the DC limit (integrators make L infinite at 0)
+    const cplx l = loop(fe);
+    const cplx n = reference ? reference(fe) : l;
+    if (!std::isfinite(std::abs(l))) return cplx(1.0);
+    const cplx t = n / (1.0 + l);
+    return f == 0 ? cplx(t.real()) : t;
   };
   auto s_of = [&](double f) {
     const cplx l = loop(f == 0 ? 1e-9 * f_scale_hz : f);

@@ -25,6 +25,8 @@ struct StepMetrics {
 
 // f_scale_hz: a frequency that sets the time scale (e.g. the crossover);
 // low_hz: the slowest dynamics worth waiting for (e.g. the lowest pole).
-StepMetrics step_metrics(const LoopFn& loop, double f_scale_hz, double low_hz);
+// reference: the numerator of the reference response when it is not L itself
+// (a setpoint-free PID: (ki/s) P); then T_r = reference/(1 + L).
+StepMetrics step_metrics(const LoopFn& loop, double f_scale_hz, double low_hz, const LoopFn& reference = nullptr);
 
 }  // namespace benchid::loop

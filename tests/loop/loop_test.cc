@@ -355,3 +355,24 @@ TEST(Step, ThirdOrderLoopAndADelayLoop) {
 }
 
 }  // namespace
+
+namespace {
+
+TEST(Controller, SetpointFreePidKeepsTheLoopGainAndSoftensTheReferenceStep) {
+  // the loop gain is that of the parallel PID; the reference path is ki/s
+  const Controller a = parse_controller("pid:kp=2,ki=3"), b = parse_controller("pid:kp=2,ki=3,setpoint=free");
+  EXPECT_CLOSE(b.model.response(1.7), a.model.response(1.7), 1e-14);
+  ASSERT_TRUE(b.setpoint_free);
+  const cplx s(0, kTwoPi * 1.7);
+  EXPECT_CLOSE(b.reference_path.response(1.7), 3.0 / s, 1e-12);
+  // on P = 1/(s + 1): the PI zero at -1.5 adds overshoot that the
+  // setpoint-free form (no zero in the reference path) does not have [D]
+  const LoopFn l = [&](double f) { return a.model.response(f) / (cplx(0, kTwoPi * f) + 1.0); };
+  const LoopFn r = [&](double f) { return b.reference_path.response(f) / (cplx(0, kTwoPi * f) + 1.0); };
+  const StepMetrics pa = step_metrics(l, 0.5, 0.05), pb = step_metrics(l, 0.5, 0.05, r);
+  EXPECT_GT(pa.overshoot_pct, pb.overshoot_pct);
+  EXPECT_NEAR(pb.steady_state_error, 0.0, 1e-6);
+  EXPECT_THROW(parse_controller("pid:kp=1,setpoint=free"), benchid::InputError);
+}
+
+}  // namespace
