@@ -56,6 +56,16 @@ FitData sample(const RationalModel& m, double f_lo, double f_hi, int n) {
   return d;
 }
 
+// Exact samples as a measured FRF with a stated relative error on every line.
+benchid::ident::Frf as_frf(const FitData& d, double rel_err) {
+  benchid::ident::Frf frf;
+  frf.freq_hz = d.freq_hz;
+  frf.h = d.h;
+  frf.rel_err.assign(d.freq_hz.size(), rel_err);
+  frf.reliable.assign(d.freq_hz.size(), 1);
+  return frf;
+}
+
 TEST(Model, ConversionsMatchScipyInvresFreqsAndRoots) {
   // tests/reference/fit_reference.txt, make_fit_reference.py (SciPy 1.10.1)
   std::ifstream in(kData + "/reference/fit_reference.txt");
@@ -262,12 +272,7 @@ TEST(FitFrf, EstimatesAPureDelay) {
   t.poles = {-kTwoPi * 20.0};
   t.residues = {kTwoPi * 20.0};
   t.delay_s = 0.0021;
-  benchid::ident::Frf frf;
-  const FitData d = sample(t, 1, 400, 300);
-  frf.freq_hz = d.freq_hz;
-  frf.h = d.h;
-  frf.rel_err.assign(d.freq_hz.size(), 0.01);
-  frf.reliable.assign(d.freq_hz.size(), 1);
+  const benchid::ident::Frf frf = as_frf(sample(t, 1, 400, 300), 0.01);
   FitOptions o;
   o.vf.order = 1;
   o.vf.proper = false;
@@ -337,12 +342,7 @@ TEST(FitFrf, ReflectsUnstablePolesUnlessAllowed) {
   RationalModel t;
   t.poles = {6.0, -60.0};
   t.residues = {100.0 / 66, -100.0 / 66};
-  benchid::ident::Frf frf;
-  const FitData d = sample(t, 0.1, 100, 200);
-  frf.freq_hz = d.freq_hz;
-  frf.h = d.h;
-  frf.rel_err.assign(d.freq_hz.size(), 0.01);
-  frf.reliable.assign(d.freq_hz.size(), 1);
+  const benchid::ident::Frf frf = as_frf(sample(t, 0.1, 100, 200), 0.01);
   FitOptions o;
   o.vf.order = 2;
   o.vf.proper = false;
