@@ -56,11 +56,14 @@ FitData sample(const RationalModel& m, double f_lo, double f_hi, int n) {
   return d;
 }
 
-// Exact samples as a measured FRF with a stated relative error on every line.
-benchid::ident::Frf as_frf(const FitData& d, double rel_err) {
+// Samples as a measured FRF with a stated relative error on every line; with
+// a noise source, each line also gets that error drawn: rel_err |H| (n1 + j n2).
+benchid::ident::Frf as_frf(const FitData& d, double rel_err, Gaussian* noise = nullptr) {
   benchid::ident::Frf frf;
   frf.freq_hz = d.freq_hz;
   frf.h = d.h;
+  if (noise)
+    for (auto& h : frf.h) h += rel_err * std::abs(h) * cplx((*noise)(), (*noise)());
   frf.rel_err.assign(d.freq_hz.size(), rel_err);
   frf.reliable.assign(d.freq_hz.size(), 1);
   return frf;
@@ -290,14 +293,7 @@ TEST(FitFrf, NoisyResonanceWithinStatedTolerancesAcrossSeeds) {
   const RationalModel t = two_mass(0.08, 22, 0.03, 31, 0.04, 40);
   for (std::uint64_t seed = 1; seed <= 5; ++seed) {
     Gaussian g(seed);
-    benchid::ident::Frf frf;
-    const FitData d = sample(t, 0.5, 250, 500);
-    for (std::size_t k = 0; k < d.freq_hz.size(); ++k) {
-      frf.freq_hz.push_back(d.freq_hz[k]);
-      frf.h.push_back(d.h[k] + 0.02 * std::abs(d.h[k]) * cplx(g(), g()));
-      frf.rel_err.push_back(0.02);
-      frf.reliable.push_back(1);
-    }
+    const benchid::ident::Frf frf = as_frf(sample(t, 0.5, 250, 500), 0.02, &g);
     FitOptions o;
     o.vf.order = 3;
     o.vf.proper = false;
@@ -319,14 +315,7 @@ TEST(FitFrf, NoisyResonanceWithinStatedTolerancesAcrossSeeds) {
 TEST(FitFrf, AutoOrderFindsTheTrueOrderAtTheNoiseLevel) {
   const RationalModel t = two_mass(0.08, 22, 0.03, 31, 0.04, 40);
   Gaussian g(42);
-  benchid::ident::Frf frf;
-  const FitData d = sample(t, 0.5, 250, 400);
-  for (std::size_t k = 0; k < d.freq_hz.size(); ++k) {
-    frf.freq_hz.push_back(d.freq_hz[k]);
-    frf.h.push_back(d.h[k] + 0.01 * std::abs(d.h[k]) * cplx(g(), g()));
-    frf.rel_err.push_back(0.01);
-    frf.reliable.push_back(1);
-  }
+  const benchid::ident::Frf frf = as_frf(sample(t, 0.5, 250, 400), 0.01, &g);
   FitOptions o;
   o.auto_order = true;
   o.max_order = 8;
