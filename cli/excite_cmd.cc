@@ -122,7 +122,7 @@ void add_excite_command(CLI::App& app) {
     s->add_option("--f1", o->f1_hz, "Highest excited frequency, Hz (default 1000)");
     s->add_option("--resolution", o->resolution_hz, "Line spacing, Hz; rate/resolution must be a whole number of "
                   "samples (default 1)");
-    s->add_option("--period", o->period, "Samples per period, instead of --resolution");
+    s->add_option("--period", o->period, "Samples per period, instead of --resolution (default: none)");
     s->add_option("--spacing", *spacing, "lin or log line spacing (default log)");
     s->add_option("--lines-per-decade", o->lines_per_decade, "Log spacing: lines per decade (default 30)");
     s->add_option("--every", o->every, "Lin spacing: every k-th grid line (default 1)");
@@ -169,7 +169,7 @@ void add_excite_command(CLI::App& app) {
     s->add_option("--measure-cycles", o->measure_cycles, "Cycles measured per step (default 20)");
     s->add_option("--min-settle", o->min_settle_s, "At least this settling time per step, s (default 0)");
     s->add_option("--profile", *profile, "Amplitude per frequency as F:A,F:A,... (Hz:peak), interpolated log-log; "
-                  "replaces --amplitude");
+                  "replaces --amplitude (default: none, constant --amplitude)");
     s->callback([o, c, spacing, profile] {
       o->spacing = ident::parse_spacing(*spacing);
       if (!profile->empty()) {

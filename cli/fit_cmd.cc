@@ -166,8 +166,8 @@ void add_fit_command(CLI::App& app) {
                 "measured through a digital controller (needs --sample-time)");
   c->add_option("--discretize", a->discretize, "Also make a discrete-time model for firmware: zoh (exact for a held "
                 "input; fractional delays kept) or tustin (bilinear; delay rounded to whole samples); the JSON is "
-                "then the z-domain model and the second-order sections are printed");
-  c->add_option("--sample-time", a->sample_time_s, "Sample period of the discrete model, s (with --discretize or --domain z)");
+                "then the z-domain model and the second-order sections are printed (default: none, continuous only)");
+  c->add_option("--sample-time", a->sample_time_s, "Sample period of the discrete model, s (needed with --discretize or --domain z; no default)");
   c->add_option("--prewarp", a->prewarp_hz, "Tustin: frequency in Hz where the discrete response is exact (default: none)");
   c->add_option("--max-iterations", a->max_iterations, "Pole relocations before giving up (default 50)");
   c->add_flag("--json", a->json, "Print the model JSON on stdout (the summary goes to stderr)");

@@ -162,16 +162,16 @@ void add_frf_command(CLI::App& app, const std::string& command_line) {
   c->add_option("--output", a->output, "Output (response) channel: name or 1-based number")->required();
   c->add_option("--reference", a->reference,
                 "Reference channel (e.g. the injected or setpoint signal) for closed-loop data: the plant "
-                "is estimated by the indirect method G_ry/G_ru, unbiased by feedback of output noise");
+                "is estimated by the indirect method G_ry/G_ru, unbiased by feedback of output noise (default: none, open loop)");
   c->add_option("-o,--out", a->out, "FRF CSV to write (default: stdout); never an input path");
   c->add_option("--report", a->report, "Also write a plain-text report (settings, quality, selected lines with "
-                "error bars, warnings, caution) to this file");
+                "error bars, warnings, caution) to this file (default: none)");
   c->add_option("--rate", a->rate_hz, "Sampling rate in Hz; needed when the log has no time column. When "
                 "given, a time column is ignored (default: from the time column or the sound file)");
   c->add_option("--segment", a->segment, "Samples per Welch segment (default 4096; a power of two is fastest). "
                 "Resolution = rate/segment Hz");
   c->add_option("--resolution", a->resolution_hz, "Target frequency resolution in Hz instead of --segment: the "
-                "segment becomes the smallest power of two with rate/segment <= HZ");
+                "segment becomes the smallest power of two with rate/segment <= HZ (default: none, --segment decides)");
   c->add_option("--overlap", a->overlap, "Segment overlap as a fraction in [0, 0.95] (default 0.5)");
   c->add_option("--window", a->window, "Window: rect, hann, hamming, blackmanharris (4-term), flattop "
                 "(default hann)");
@@ -180,24 +180,24 @@ void add_frf_command(CLI::App& app, const std::string& command_line) {
                 "mean of h1 and h2); a --reference selects the indirect estimate");
   c->add_option("--periods", a->periods, "Periodic excitation: the record holds N whole periods; they are "
                 "averaged synchronously with a rectangular window (leakage-free for multisines) and the "
-                "error comes from the period-to-period variation");
-  c->add_option("--period", a->period, "Periodic excitation: samples per period (instead of --periods)");
+                "error comes from the period-to-period variation (default: none, Welch averaging)");
+  c->add_option("--period", a->period, "Periodic excitation: samples per period (instead of --periods; default: none)");
   c->add_option("--band", a->band, "Frequency band LO:HI in Hz to keep (either side may be empty; default: "
                 "every line above 0 Hz up to Nyquist)");
   c->add_option("--scale", a->scales, "CH:FACTOR multiplies a channel (for sound files: units per full scale, "
-                "e.g. 2:12.5 for a 12.5 A/FS current probe); repeatable")->take_all();
+                "e.g. 2:12.5 for a 12.5 A/FS current probe); repeatable (default: none, values as recorded)")->take_all();
   c->add_option("--confidence", a->confidence, "Confidence level of the zero-coherence bound below which lines "
                 "are flagged unreliable (default 0.95)");
   c->add_option("--jitter-tolerance", a->jitter, "Allowed deviation of one time step from the nominal step, as a "
                 "fraction, besides the printed resolution of the time values (default 0.01)");
   c->add_option("--excitation", a->excitation, "Sidecar JSON from 'benchid excite': multisine and prbs records are "
                 "averaged by period over the excited lines, repeated sweeps by sweep, a steps plan is measured step "
-                "by step; the band, period and rate come from it. The record must start with the signal");
+                "by step; the band, period and rate come from it. The record must start with the signal (default: none)");
   c->add_option("--stepped", a->stepped, "Stepped-sine plan JSON from 'benchid excite steps': one FRF point per step "
-                "by a least-squares sine fit (IEEE Std 1057) with its error and the output's THD+N");
+                "by a least-squares sine fit (IEEE Std 1057) with its error and the output's THD+N (default: none)");
   c->add_option("--step-freqs", a->step_freqs, "Stepped sine without a plan: step frequencies F1,F2,... in Hz, "
-                "steps back to back from t = 0");
-  c->add_option("--step-seconds", a->step_s, "Without a plan: duration of each step, s");
+                "steps back to back from t = 0 (default: none)");
+  c->add_option("--step-seconds", a->step_s, "Without a plan: duration of each step, s (needed with --step-freqs)");
   c->add_option("--settle-seconds", a->settle_s, "Without a plan: time left out at the start of each step, s (default 0)");
   c->add_option("--plan-offset", a->plan_offset_s, "Stepped sine: record time at which the plan's first sample was "
                 "played, s (default 0)");

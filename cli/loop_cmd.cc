@@ -360,14 +360,14 @@ void add_loop_command(CLI::App& app) {
   c->add_option("--draws", a->draws, "FRF plant: Monte Carlo draws of the per-line random error for the +- figures "
                 "(default 200; 0: none)");
   c->add_option("--controller", a->controller, "Controller SPEC (or a FILE.json holding {\"format\": \"benchid.controller/1\", \"spec\": SPEC}), e.g. pid:kp=2,ki=10,kd=0.05,tf=0.002*notch:f=50,width=10,depth=20 "
-                "(forms gain, pid, lead, lag, notch, poly, roots; @dt=SECONDS for a discrete controller; see README)");
+                "(forms gain, pid, lead, lag, notch, poly, roots; @dt=SECONDS for a discrete controller; see README; required)");
   c->add_option("--pm-min", a->pm_min, "Phase margin threshold, deg (default 45, common practice)");
   c->add_option("--gm-min", a->gm_min, "Gain margin threshold, dB (default 10, common practice)");
   c->add_option("--ms-max", a->ms_max_db, "Peak sensitivity threshold, dB (default 6, Astrom & Murray)");
   c->add_option("--tracking-hz", a->tracking_hz, "Frequency where the tracking error |1/(1+L)| is stated, Hz (default: a "
                 "decade below the crossover)");
   c->add_option("--sweep", a->sweep, "NAME=LO:HI:N: recompute the figures for N values of one controller parameter "
-                "(e.g. kp=0.5:2:10, linear steps) and print a table");
+                "(e.g. kp=0.5:2:10, linear steps) and print a table (default: none)");
   c->add_option("-o,--out", a->out, "Loop JSON to write (benchid.loop/1)");
   c->add_flag("--json", a->json, "Print only the loop JSON on stdout (the table goes to stderr)");
   c->add_flag("--strict", a->strict, "Exit status 3 when the verdict fails");

@@ -93,7 +93,7 @@ void add_replay_command(CLI::App& app) {
       ->required();
   c->add_option("--input", a->input, "Input channel: name or 1-based number")->required();
   c->add_option("--output", a->output, "Output channel: name or 1-based number")->required();
-  c->add_option("--rate", a->rate_hz, "Sampling rate in Hz when the log has no time column");
+  c->add_option("--rate", a->rate_hz, "Sampling rate in Hz when the log has no time column (default: from the time column or sound file)");
   c->add_option("--hold", a->hold, "measured: the model came from a measured FRF, which already holds the converters "
                 "and hold, so its response is applied to the samples as they are; zoh: the model is a continuous "
                 "plant fed by an input held between samples (default measured; models with integrators use zoh)");
