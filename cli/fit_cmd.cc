@@ -8,6 +8,7 @@
 #include <memory>
 
 #include "cli/commands.h"
+#include "cli/stages.h"
 #include "cli/output.h"
 #include "cli/parse.h"
 #include "fit/discretize.h"
@@ -20,26 +21,17 @@ namespace benchid::cli {
 
 namespace {
 
-struct FitArgs {
-  std::string frf, out, order = "auto", delay = "0", band, weighting = "variance";
-  int max_order = fit::FitOptions{}.max_order;
-  int integrators = 0;
-  int max_iterations = fit::VectorFitOptions{}.max_iterations;
-  std::string discretize, method = "vf", domain = "s";
+struct FitCommand {
+  FitArgs fit;
+  std::string frf, out, discretize, domain = "s";
   double sample_time_s = 0, prewarp_hz = 0;
-  bool strictly_proper = false, improper = false, allow_unstable = false, json = false, quiet = false;
+  bool json = false, quiet = false;
 };
 
-// The analysis could not produce a result: exit status 1.
-struct NoResult : std::runtime_error {
-  using std::runtime_error::runtime_error;
-};
 
-void run_fit(const FitArgs& a) {
-  refuse_overwriting_input(a.out, {a.frf});
-  if (!a.discretize.empty() && !(a.sample_time_s > 0))
-    throw InputError("--discretize needs --sample-time SECONDS (the firmware's sample period)");
-  const ident::Frf frf = ident::read_frf_csv(a.frf);
+}  // namespace
+
+fit::FitOptions fit_options(const FitArgs& a) {
   fit::FitOptions o;
   o.weighting = fit::parse_weighting(a.weighting);
   o.vf.integrators = a.integrators;
@@ -49,13 +41,6 @@ void run_fit(const FitArgs& a) {
   o.vf.max_iterations = a.max_iterations;
   if (a.method != "vf" && a.method != "sk") throw InputError("--method '" + a.method + "' is unknown; expected vf or sk");
   o.polynomial = a.method == "sk";
-  if (a.domain != "s" && a.domain != "z") throw InputError("--domain '" + a.domain + "' is unknown; expected s or z");
-  if (a.domain == "z") {
-    if (!(a.sample_time_s > 0)) throw InputError("--domain z needs --sample-time SECONDS (the controller's sample period)");
-    if (!a.discretize.empty()) throw InputError("--discretize makes a z model from an s fit; with --domain z the fit is already in z");
-    o.vf.domain = fit::Domain::z;
-    o.vf.sample_time_s = a.sample_time_s;
-  }
   o.max_order = a.max_order;
   if (a.order == "auto") {
     o.auto_order = true;
@@ -74,12 +59,10 @@ void run_fit(const FitArgs& a) {
     o.band_lo_hz = b.lo_hz;
     o.band_hi_hz = b.hi_hz;
   }
-  const fit::FrfFit f = fit::fit_frf(frf, o);
-  const std::string summary = fit::fit_summary(f, a.frf);
-  (a.json ? std::cerr : std::cout) << (a.quiet ? std::string() : summary + "\n");
-  if (!f.result.converged)
-    throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
-                   " iterations; try a lower --order, a narrower --band or --weighting relative");
+  return o;
+}
+
+fit::FitSummary fit_record(const fit::FrfFit& f, const std::string& source) {
   fit::FitSummary fs;
   fs.order = static_cast<int>(f.result.model.order());
   fs.band_lo_hz = f.data.freq_hz.front();
@@ -94,7 +77,32 @@ void run_fit(const FitArgs& a) {
   fs.dof = f.result.dof;
   fs.iterations = f.result.iterations;
   fs.converged = f.result.converged;
-  fs.source = a.frf;
+  fs.source = source;
+  return fs;
+}
+
+namespace {
+
+void run_fit(const FitCommand& a) {
+  refuse_overwriting_input(a.out, {a.frf});
+  if (!a.discretize.empty() && !(a.sample_time_s > 0))
+    throw InputError("--discretize needs --sample-time SECONDS (the firmware's sample period)");
+  const ident::Frf frf = ident::read_frf_csv(a.frf);
+  fit::FitOptions o = fit_options(a.fit);
+  if (a.domain != "s" && a.domain != "z") throw InputError("--domain '" + a.domain + "' is unknown; expected s or z");
+  if (a.domain == "z") {
+    if (!(a.sample_time_s > 0)) throw InputError("--domain z needs --sample-time SECONDS (the controller's sample period)");
+    if (!a.discretize.empty()) throw InputError("--discretize makes a z model from an s fit; with --domain z the fit is already in z");
+    o.vf.domain = fit::Domain::z;
+    o.vf.sample_time_s = a.sample_time_s;
+  }
+  const fit::FrfFit f = fit::fit_frf(frf, o);
+  const std::string summary = fit::fit_summary(f, a.frf);
+  (a.json ? std::cerr : std::cout) << (a.quiet ? std::string() : summary + "\n");
+  if (!f.result.converged)
+    throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
+                   " iterations; try a lower --order, a narrower --band or --weighting relative");
+  const fit::FitSummary fs = fit_record(f, a.frf);
   fit::RationalModel out_model = f.result.model;
   std::ostream& say = a.json ? std::cerr : std::cout;
   if (!a.discretize.empty()) {
@@ -139,29 +147,34 @@ void run_fit(const FitArgs& a) {
 
 }  // namespace
 
+void add_fit_options(CLI::App* c, FitArgs& a) {
+  c->add_option("--order", a.order, "Poles to fit besides integrators: N (1..200), or auto: the lowest order whose "
+                "residual is consistent with the measurement noise (chi-square test, 99 %), else the lowest Akaike "
+                "criterion (default auto)");
+  c->add_option("--max-order", a.max_order, "Order sweep limit for --order auto (default 20)");
+  c->add_option("--delay", a.delay, "Pure delay in s, or auto: estimated from the phase slope and refined with the "
+                "fit (default 0)");
+  c->add_option("--band", a.band, "Fit only lines in LO:HI, Hz (default: all lines)");
+  c->add_option("--integrators", a.integrators, "Poles fixed at the origin, e.g. 1 for voltage to position of a "
+                "motor (default 0)");
+  c->add_option("--weighting", a.weighting, "variance (1/standard error from the FRF's rel_err, floored at a tenth "
+                "of the median), relative (1/|H|) or uniform (default variance)");
+  c->add_flag("--strictly-proper", a.strictly_proper, "No direct term: the model falls off at high frequency");
+  c->add_flag("--improper", a.improper, "Allow a term proportional to s (rising response)");
+  c->add_flag("--allow-unstable", a.allow_unstable, "Keep right-half-plane poles instead of reflecting them");
+  c->add_option("--method", a.method, "vf (vector fitting) or sk (Sanathanan-Koerner iteration on the polynomial "
+                "form: the classic method, ill-conditioned above about order 10; for comparison) (default vf)");
+  c->add_option("--max-iterations", a.max_iterations, "Pole relocations before giving up (default 50)");
+}
+
 void add_fit_command(CLI::App& app) {
-  auto a = std::make_shared<FitArgs>();
+  auto a = std::make_shared<FitCommand>();
   CLI::App* c = app.add_subcommand(
       "fit", "Fit a rational model (poles, residues, delay) to an FRF CSV by vector fitting (Gustavsen & Semlyen "
              "1999, relaxed form of 2006); print poles and zeros as frequency and damping, and the fit quality.");
   c->add_option("frf", a->frf, "FRF CSV from 'benchid frf'")->required();
   c->add_option("-o,--out", a->out, "Model JSON to write (benchid.model/1)");
-  c->add_option("--order", a->order, "Poles to fit besides integrators: N (1..200), or auto: the lowest order whose "
-                "residual is consistent with the measurement noise (chi-square test, 99 %), else the lowest Akaike "
-                "criterion (default auto)");
-  c->add_option("--max-order", a->max_order, "Order sweep limit for --order auto (default 20)");
-  c->add_option("--delay", a->delay, "Pure delay in s, or auto: estimated from the phase slope and refined with the "
-                "fit (default 0)");
-  c->add_option("--band", a->band, "Fit only lines in LO:HI, Hz (default: all lines)");
-  c->add_option("--integrators", a->integrators, "Poles fixed at the origin, e.g. 1 for voltage to position of a "
-                "motor (default 0)");
-  c->add_option("--weighting", a->weighting, "variance (1/standard error from the FRF's rel_err, floored at a tenth "
-                "of the median), relative (1/|H|) or uniform (default variance)");
-  c->add_flag("--strictly-proper", a->strictly_proper, "No direct term: the model falls off at high frequency");
-  c->add_flag("--improper", a->improper, "Allow a term proportional to s (rising response)");
-  c->add_flag("--allow-unstable", a->allow_unstable, "Keep right-half-plane poles instead of reflecting them");
-  c->add_option("--method", a->method, "vf (vector fitting) or sk (Sanathanan-Koerner iteration on the polynomial "
-                "form: the classic method, ill-conditioned above about order 10; for comparison) (default vf)");
+  add_fit_options(c, a->fit);
   c->add_option("--domain", a->domain, "s (continuous, default) or z: fit a discrete-time model directly, for a plant "
                 "measured through a digital controller (needs --sample-time)");
   c->add_option("--discretize", a->discretize, "Also make a discrete-time model for firmware: zoh (exact for a held "
@@ -169,7 +182,6 @@ void add_fit_command(CLI::App& app) {
                 "then the z-domain model and the second-order sections are printed (default: none, continuous only)");
   c->add_option("--sample-time", a->sample_time_s, "Sample period of the discrete model, s (needed with --discretize or --domain z; no default)");
   c->add_option("--prewarp", a->prewarp_hz, "Tustin: frequency in Hz where the discrete response is exact (default: none)");
-  c->add_option("--max-iterations", a->max_iterations, "Pole relocations before giving up (default 50)");
   c->add_flag("--json", a->json, "Print the model JSON on stdout (the summary goes to stderr)");
   c->add_flag("-q,--quiet", a->quiet, "No summary");
   c->callback([a] {

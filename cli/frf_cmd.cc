@@ -7,6 +7,7 @@
 #include <unistd.h>
 
 #include "cli/commands.h"
+#include "cli/stages.h"
 #include "cli/output.h"
 #include "cli/parse.h"
 #include "cli/text_report.h"
@@ -21,34 +22,26 @@ namespace benchid::cli {
 
 namespace {
 
-struct FrfArgs {
-  std::string record, input, output, reference, out, report;
-  std::string command_line;
-  double rate_hz = 0;
-  std::size_t segment = 0;
-  double resolution_hz = 0;
-  double overlap = ident::WelchOptions{}.overlap;
-  std::string window = "hann", detrend = "mean", estimator = "h1", band;
-  std::size_t periods = 0, period = 0;
-  long skip_periods = -1;  // -1: from the excitation (1 when it has 3 or more periods), else 0
-  std::string excitation, stepped, step_freqs;
-  double step_s = 0, settle_s = 0, plan_offset_s = 0;
-  bool refine_frequency = false;
-  double split = 0;
-  std::vector<std::string> scales;
-  double confidence = ident::FrfOptions{}.confidence;
-  double jitter = ident::ReadOptions{}.jitter_tolerance;
-  bool loop_gain = false, quiet = false;
+
+
+struct FrfCommand {
+  FrfArgs frf;
+  std::string out, report;
+  bool quiet = false;
 };
 
+}  // namespace
 
-void run_frf(const FrfArgs& a) {
+std::vector<std::string> frf_inputs(const FrfArgs& a) {
+  std::vector<std::string> v{a.record};
+  if (!a.excitation.empty()) v.push_back(a.excitation);
+  if (!a.stepped.empty()) v.push_back(a.stepped);
+  return v;
+}
+
+ident::Frf compute_frf(const FrfArgs& a) {
   if (!a.excitation.empty() && !a.stepped.empty()) throw InputError("give --excitation or --stepped, not both");
   std::string side_path = !a.excitation.empty() ? a.excitation : a.stepped;
-  refuse_overwriting_input(a.out, {a.record, side_path});
-  refuse_overwriting_input(a.report, {a.record, side_path});
-  if (!a.report.empty() && a.report == a.out)
-    throw InputError("--report and -o name the same file '" + a.out + "'; expected two paths");
   std::optional<ident::Sidecar> side;
   if (!side_path.empty()) {
     side = ident::read_sidecar(side_path);
@@ -133,84 +126,101 @@ void run_frf(const FrfArgs& a) {
                        fmt_num(side->excitation.rate_hz) + " Hz; expected the same rate");
     f.excitation = side->excitation.kind + " from " + side_path;
   }
+  return f;
+}
+
+namespace {
+
+void run_frf(const FrfCommand& cmd) {
+  const FrfArgs& a = cmd.frf;
+  refuse_overwriting_input(cmd.out, frf_inputs(a));
+  refuse_overwriting_input(cmd.report, frf_inputs(a));
+  if (!cmd.report.empty() && cmd.report == cmd.out)
+    throw InputError("--report and -o name the same file '" + cmd.out + "'; expected two paths");
+  const ident::Frf f = compute_frf(a);
   std::ostringstream csv;
   ident::write_frf_csv(csv, f);
-  write_file_atomically(a.out.empty() ? "-" : a.out, csv.str());
-  if (!a.report.empty()) write_file_atomically(a.report, frf_text_report(f, a.command_line));
-  if (!a.quiet) {
+  write_file_atomically(cmd.out.empty() ? "-" : cmd.out, csv.str());
+  if (!cmd.report.empty()) write_file_atomically(cmd.report, frf_text_report(f, a.command_line));
+  if (!cmd.quiet) {
     std::cerr << "benchid frf: " << ident::summary(f) << "\n";
     for (const auto& w : f.warnings) std::cerr << "benchid: warning: " << w << "\n";
-    if (!a.out.empty() && a.out != "-") std::cerr << "  wrote " << a.out << "\n";
-    if (!a.report.empty()) std::cerr << "  wrote " << a.report << "\n";
+    if (!cmd.out.empty() && cmd.out != "-") std::cerr << "  wrote " << cmd.out << "\n";
+    if (!cmd.report.empty()) std::cerr << "  wrote " << cmd.report << "\n";
   }
 }
 
 }  // namespace
 
+void add_frf_options(CLI::App* c, FrfArgs& a, bool pipeline) {
+  c->add_option("record", a.record, "Recording: CSV/TSV log (header row of channel names, optional time "
+                "column) or a sound file (WAV, FLAC, AIFF, ... through libsndfile)")->required();
+  c->add_option("--input", a.input, "Input (excitation) channel: header name or 1-based column/channel "
+                "number (numbers count every column, the time column included)")->required();
+  c->add_option("--output", a.output, "Output (response) channel: name or 1-based number")->required();
+  c->add_option("--reference", a.reference,
+                "Reference channel (e.g. the injected or setpoint signal) for closed-loop data: the plant "
+                "is estimated by the indirect method G_ry/G_ru, unbiased by feedback of output noise (default: none, open loop)");
+  c->add_option("--rate", a.rate_hz, "Sampling rate in Hz; needed when the log has no time column. When "
+                "given, a time column is ignored (default: from the time column or the sound file)");
+  c->add_option("--segment", a.segment, "Samples per Welch segment (default 4096; a power of two is fastest). "
+                "Resolution = rate/segment Hz");
+  c->add_option("--resolution", a.resolution_hz, "Target frequency resolution in Hz instead of --segment: the "
+                "segment becomes the smallest power of two with rate/segment <= HZ (default: none, --segment decides)");
+  c->add_option("--overlap", a.overlap, "Segment overlap as a fraction in [0, 0.95] (default 0.5)");
+  c->add_option("--window", a.window, "Window: rect, hann, hamming, blackmanharris (4-term), flattop "
+                "(default hann)");
+  c->add_option("--detrend", a.detrend, "Removed from each segment: none, mean, linear (default mean)");
+  c->add_option("--estimator", a.estimator, "h1 (output noise; default), h2 (input noise) or hv (geometric "
+                "mean of h1 and h2); a --reference selects the indirect estimate");
+  c->add_option("--periods", a.periods, "Periodic excitation: the record holds N whole periods; they are "
+                "averaged synchronously with a rectangular window (leakage-free for multisines) and the "
+                "error comes from the period-to-period variation (default: none, Welch averaging)");
+  c->add_option("--period", a.period, "Periodic excitation: samples per period (instead of --periods; default: none)");
+  c->add_option("--scale", a.scales, "CH:FACTOR multiplies a channel (for sound files: units per full scale, "
+                "e.g. 2:12.5 for a 12.5 A/FS current probe); repeatable (default: none, values as recorded)")->take_all();
+  c->add_option("--confidence", a.confidence, "Confidence level of the zero-coherence bound below which lines "
+                "are flagged unreliable (default 0.95)");
+  c->add_option("--jitter-tolerance", a.jitter, "Allowed deviation of one time step from the nominal step, as a "
+                "fraction, besides the printed resolution of the time values (default 0.01)");
+  c->add_option("--excitation", a.excitation, "Sidecar JSON from 'benchid excite': multisine and prbs records are "
+                "averaged by period over the excited lines, repeated sweeps by sweep, a steps plan is measured step "
+                "by step; the band, period and rate come from it. The record must start with the signal (default: none)");
+  c->add_option("--stepped", a.stepped, "Stepped-sine plan JSON from 'benchid excite steps': one FRF point per step "
+                "by a least-squares sine fit (IEEE Std 1057) with its error and the output's THD+N (default: none)");
+  c->add_option("--step-freqs", a.step_freqs, "Stepped sine without a plan: step frequencies F1,F2,... in Hz, "
+                "steps back to back from t = 0 (default: none)");
+  c->add_option("--step-seconds", a.step_s, "Without a plan: duration of each step, s (needed with --step-freqs)");
+  c->add_option("--settle-seconds", a.settle_s, "Without a plan: time left out at the start of each step, s (default 0)");
+  c->add_option("--plan-offset", a.plan_offset_s, "Stepped sine: record time at which the plan's first sample was "
+                "played, s (default 0)");
+  c->add_flag("--refine-frequency", a.refine_frequency, "Stepped sine: refine each step's frequency from the input "
+              "(four-parameter fit), for generators whose frequency is not exact");
+  c->add_option("--skip-periods", a.skip_periods, "Periodic averaging: leading periods left out as transient "
+                "(default 0; with --excitation, 1 when it has 3 or more periods)");
+  c->add_option("--split", a.split, "Hold out the last fraction F of the record (0 to 0.9): the FRF uses the first "
+                "part only, and 'replay --split F' validates the fitted model on the rest (default 0)");
+  c->add_flag("--loop-gain", a.loop_gain, "Injection measurement: --reference is the injected signal, --input the "
+              "signal after the injection point, --output the signal returning to it; reports L = -G_ry/G_ru");
+  if (!pipeline)
+    c->add_option("--band", a.band, "Frequency band LO:HI in Hz to keep (either side may be empty; default: "
+                  "every line above 0 Hz up to Nyquist)");
+}
+
 void add_frf_command(CLI::App& app, const std::string& command_line) {
-  auto a = std::make_shared<FrfArgs>();
-  a->command_line = command_line;
+  auto cmd = std::make_shared<FrfCommand>();
+  cmd->frf.command_line = command_line;
   CLI::App* c = app.add_subcommand(
       "frf",
       "Estimate a frequency response (FRF) with coherence and error bars from a recording of an\n"
       "excitation (input) and a response (output). Writes the FRF CSV (DESIGN.md) to -o or stdout\n"
       "and a summary to stderr.");
-  c->add_option("record", a->record, "Recording: CSV/TSV log (header row of channel names, optional time "
-                "column) or a sound file (WAV, FLAC, AIFF, ... through libsndfile)")->required();
-  c->add_option("--input", a->input, "Input (excitation) channel: header name or 1-based column/channel "
-                "number (numbers count every column, the time column included)")->required();
-  c->add_option("--output", a->output, "Output (response) channel: name or 1-based number")->required();
-  c->add_option("--reference", a->reference,
-                "Reference channel (e.g. the injected or setpoint signal) for closed-loop data: the plant "
-                "is estimated by the indirect method G_ry/G_ru, unbiased by feedback of output noise (default: none, open loop)");
-  c->add_option("-o,--out", a->out, "FRF CSV to write (default: stdout); never an input path");
-  c->add_option("--report", a->report, "Also write a plain-text report (settings, quality, selected lines with "
+  add_frf_options(c, cmd->frf, false);
+  c->add_option("-o,--out", cmd->out, "FRF CSV to write (default: stdout); never an input path");
+  c->add_option("--report", cmd->report, "Also write a plain-text report (settings, quality, selected lines with "
                 "error bars, warnings, caution) to this file (default: none)");
-  c->add_option("--rate", a->rate_hz, "Sampling rate in Hz; needed when the log has no time column. When "
-                "given, a time column is ignored (default: from the time column or the sound file)");
-  c->add_option("--segment", a->segment, "Samples per Welch segment (default 4096; a power of two is fastest). "
-                "Resolution = rate/segment Hz");
-  c->add_option("--resolution", a->resolution_hz, "Target frequency resolution in Hz instead of --segment: the "
-                "segment becomes the smallest power of two with rate/segment <= HZ (default: none, --segment decides)");
-  c->add_option("--overlap", a->overlap, "Segment overlap as a fraction in [0, 0.95] (default 0.5)");
-  c->add_option("--window", a->window, "Window: rect, hann, hamming, blackmanharris (4-term), flattop "
-                "(default hann)");
-  c->add_option("--detrend", a->detrend, "Removed from each segment: none, mean, linear (default mean)");
-  c->add_option("--estimator", a->estimator, "h1 (output noise; default), h2 (input noise) or hv (geometric "
-                "mean of h1 and h2); a --reference selects the indirect estimate");
-  c->add_option("--periods", a->periods, "Periodic excitation: the record holds N whole periods; they are "
-                "averaged synchronously with a rectangular window (leakage-free for multisines) and the "
-                "error comes from the period-to-period variation (default: none, Welch averaging)");
-  c->add_option("--period", a->period, "Periodic excitation: samples per period (instead of --periods; default: none)");
-  c->add_option("--band", a->band, "Frequency band LO:HI in Hz to keep (either side may be empty; default: "
-                "every line above 0 Hz up to Nyquist)");
-  c->add_option("--scale", a->scales, "CH:FACTOR multiplies a channel (for sound files: units per full scale, "
-                "e.g. 2:12.5 for a 12.5 A/FS current probe); repeatable (default: none, values as recorded)")->take_all();
-  c->add_option("--confidence", a->confidence, "Confidence level of the zero-coherence bound below which lines "
-                "are flagged unreliable (default 0.95)");
-  c->add_option("--jitter-tolerance", a->jitter, "Allowed deviation of one time step from the nominal step, as a "
-                "fraction, besides the printed resolution of the time values (default 0.01)");
-  c->add_option("--excitation", a->excitation, "Sidecar JSON from 'benchid excite': multisine and prbs records are "
-                "averaged by period over the excited lines, repeated sweeps by sweep, a steps plan is measured step "
-                "by step; the band, period and rate come from it. The record must start with the signal (default: none)");
-  c->add_option("--stepped", a->stepped, "Stepped-sine plan JSON from 'benchid excite steps': one FRF point per step "
-                "by a least-squares sine fit (IEEE Std 1057) with its error and the output's THD+N (default: none)");
-  c->add_option("--step-freqs", a->step_freqs, "Stepped sine without a plan: step frequencies F1,F2,... in Hz, "
-                "steps back to back from t = 0 (default: none)");
-  c->add_option("--step-seconds", a->step_s, "Without a plan: duration of each step, s (needed with --step-freqs)");
-  c->add_option("--settle-seconds", a->settle_s, "Without a plan: time left out at the start of each step, s (default 0)");
-  c->add_option("--plan-offset", a->plan_offset_s, "Stepped sine: record time at which the plan's first sample was "
-                "played, s (default 0)");
-  c->add_flag("--refine-frequency", a->refine_frequency, "Stepped sine: refine each step's frequency from the input "
-              "(four-parameter fit), for generators whose frequency is not exact");
-  c->add_option("--skip-periods", a->skip_periods, "Periodic averaging: leading periods left out as transient "
-                "(default 0; with --excitation, 1 when it has 3 or more periods)");
-  c->add_option("--split", a->split, "Hold out the last fraction F of the record (0 to 0.9): the FRF uses the first "
-                "part only, and 'replay --split F' validates the fitted model on the rest (default 0)");
-  c->add_flag("--loop-gain", a->loop_gain, "Injection measurement: --reference is the injected signal, --input the "
-              "signal after the injection point, --output the signal returning to it; reports L = -G_ry/G_ru");
-  c->add_flag("-q,--quiet", a->quiet, "No summary on stderr");
-  c->callback([a] { run_frf(*a); });
+  c->add_flag("-q,--quiet", cmd->quiet, "No summary on stderr");
+  c->callback([cmd] { run_frf(*cmd); });
 }
 
 }  // namespace benchid::cli

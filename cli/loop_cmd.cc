@@ -12,6 +12,7 @@
 #include <sstream>
 
 #include "cli/commands.h"
+#include "cli/stages.h"
 #include "cli/output.h"
 #include "cli/parse.h"
 #include "fit/model_json.h"
@@ -28,14 +29,10 @@ namespace benchid::cli {
 
 namespace {
 
-struct LoopArgs {
-  std::string plant, controller, out;
-  double pm_min = 45, gm_min = 10, ms_max_db = 6;
+struct LoopCommand {
+  LoopArgs loop;
+  std::string plant, out, sweep;
   bool json = false, strict = false;
-  int plant_integrators = 0;
-  std::string band, sweep;
-  double tracking_hz = 0;
-  std::size_t draws = loop::FrfLoopOptions{}.draws;
 };
 
 nlohmann::json num_or_null(double v) { return std::isfinite(v) ? nlohmann::json(v) : nlohmann::json(nullptr); }
@@ -46,48 +43,47 @@ std::string fmt(const char* f, double v) {
   return b;
 }
 
-void run_sweep(const LoopArgs& a, bool frf_plant);
-
 // --sweep NAME=LO:HI:N: the figures for N values of one controller parameter
-void run_sweep(const LoopArgs& a, bool frf_plant) {
-  const auto eq = a.sweep.find('='), c1 = a.sweep.find(':', eq == std::string::npos ? 0 : eq);
-  const auto c2 = c1 == std::string::npos ? std::string::npos : a.sweep.find(':', c1 + 1);
+void run_sweep(const LoopCommand& cmd, const std::string& controller, bool frf_plant) {
+  const LoopArgs& a = cmd.loop;
+  const auto eq = cmd.sweep.find('='), c1 = cmd.sweep.find(':', eq == std::string::npos ? 0 : eq);
+  const auto c2 = c1 == std::string::npos ? std::string::npos : cmd.sweep.find(':', c1 + 1);
   if (eq == std::string::npos || c1 == std::string::npos || c2 == std::string::npos)
-    throw InputError("--sweep '" + a.sweep + "': expected NAME=LO:HI:N, e.g. kp=0.5:2:10");
-  const std::string name = a.sweep.substr(0, eq);
-  const double lo = parse_number(a.sweep.substr(eq + 1, c1 - eq - 1), "--sweep LO"),
-               hi = parse_number(a.sweep.substr(c1 + 1, c2 - c1 - 1), "--sweep HI");
-  const double nn = parse_number(a.sweep.substr(c2 + 1), "--sweep N");
+    throw InputError("--sweep '" + cmd.sweep + "': expected NAME=LO:HI:N, e.g. kp=0.5:2:10");
+  const std::string name = cmd.sweep.substr(0, eq);
+  const double lo = parse_number(cmd.sweep.substr(eq + 1, c1 - eq - 1), "--sweep LO"),
+               hi = parse_number(cmd.sweep.substr(c1 + 1, c2 - c1 - 1), "--sweep HI");
+  const double nn = parse_number(cmd.sweep.substr(c2 + 1), "--sweep N");
   if (!(nn >= 2 && nn <= 10000 && nn == std::floor(nn))) throw InputError("--sweep N: expected a whole number 2..10000");
   // the parameter's place in the spec: "name=" at the start or after ':', ',' or ';'
   std::size_t at = std::string::npos;
-  for (std::size_t p = a.controller.find(name + "="); p != std::string::npos; p = a.controller.find(name + "=", p + 1))
-    if (p == 0 || a.controller[p - 1] == ':' || a.controller[p - 1] == ',' || a.controller[p - 1] == ';') {
+  for (std::size_t p = controller.find(name + "="); p != std::string::npos; p = controller.find(name + "=", p + 1))
+    if (p == 0 || controller[p - 1] == ':' || controller[p - 1] == ',' || controller[p - 1] == ';') {
       at = p;
       break;
     }
   if (at == std::string::npos)
-    throw InputError("--sweep: the controller '" + a.controller + "' has no parameter '" + name + "'");
-  const std::size_t vstart = at + name.size() + 1, vend = a.controller.find_first_of(",;*@", vstart);
+    throw InputError("--sweep: the controller '" + controller + "' has no parameter '" + name + "'");
+  const std::size_t vstart = at + name.size() + 1, vend = controller.find_first_of(",;*@", vstart);
   std::unique_ptr<ident::Frf> frf;
   std::unique_ptr<fit::RationalModel> plant;
   std::unique_ptr<loop::PlantOnGrid> grid;  // the plant evaluated once for all values
   std::pair<double, double> range;
   if (frf_plant) {
-    frf = std::make_unique<ident::Frf>(ident::read_frf_csv(a.plant));
+    frf = std::make_unique<ident::Frf>(ident::read_frf_csv(cmd.plant));
   } else {
-    plant = std::make_unique<fit::RationalModel>(fit::read_model_json(a.plant));
-    range = loop::loop_range(*plant, loop::parse_controller(a.controller));
+    plant = std::make_unique<fit::RationalModel>(fit::read_model_json(cmd.plant));
+    range = loop::loop_range(*plant, loop::parse_controller(controller));
     grid = std::make_unique<loop::PlantOnGrid>(*plant, range.first, range.second, loop::MarginOptions{}.points);
   }
-  std::cout << "benchid loop --sweep " << a.sweep << " on " << a.plant << "\n"
+  std::cout << "benchid loop --sweep " << cmd.sweep << " on " << cmd.plant << "\n"
             << "  " << name << "          GM dB    PM deg     Ms dB   crossover Hz   closed loop\n";
   const int n = static_cast<int>(nn);
   for (int i = 0; i < n; ++i) {
     const double v = lo + (hi - lo) * i / (n - 1);
     char vb[32];
     std::snprintf(vb, sizeof vb, "%.6g", v);
-    const std::string spec = a.controller.substr(0, vstart) + vb + (vend == std::string::npos ? "" : a.controller.substr(vend));
+    const std::string spec = controller.substr(0, vstart) + vb + (vend == std::string::npos ? "" : controller.substr(vend));
     const loop::Controller c = loop::parse_controller(spec);
     loop::Margins m;
     std::string stable = "not judged";
@@ -119,6 +115,8 @@ void run_sweep(const LoopArgs& a, bool frf_plant) {
 }
 
 // --controller FILE.json: {"format": "benchid.controller/1", "spec": "..."}
+}  // namespace
+
 std::string controller_spec(const std::string& arg) {
   if (arg.size() < 5 || arg.compare(arg.size() - 5, 5, ".json") != 0) return arg;
   const nlohmann::json j = read_json_file(arg, "a controller JSON {\"format\": \"benchid.controller/1\", \"spec\": ...}");
@@ -127,30 +125,27 @@ std::string controller_spec(const std::string& arg) {
   return j["spec"].get<std::string>();
 }
 
-void run_loop(const LoopArgs& a_in) {
-  LoopArgs a = a_in;
-  if (!a.controller.empty()) a.controller = controller_spec(a.controller);
-  refuse_overwriting_input(a.out, {a.plant});
+const char* const kLoopCaution =
+    "These figures hold only where the plant was measured and the model fits; changing a controller on live "
+    "machinery is at the user's own risk, under the machine's safety rules.";
+
+LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, const fit::RationalModel* model,
+                          const ident::Frf* frf, double band_lo, double band_hi) {
   if (a.controller.empty()) throw InputError("no controller; expected --controller SPEC (e.g. pid:kp=1,ki=10)");
-  bool frf_plant = false;
-  {
-    std::string head;
-    std::ifstream in(a.plant);
-    std::getline(in, head);
-    frf_plant = head.rfind("# benchid frf", 0) == 0 || head.rfind("freq_hz", 0) == 0;
-  }
-  if (!a.sweep.empty()) {
-    run_sweep(a, frf_plant);
-    return;
-  }
+  LoopAnalysis out;
+  out.plant_name = plant_name;
+  out.controller = a.controller;
+  out.band_lo_hz = band_lo;
+  out.band_hi_hz = band_hi;
+  const bool frf_plant = frf != nullptr;
+  out.frf_plant = frf_plant;
   const loop::Controller c = loop::parse_controller(a.controller);
-  loop::Margins m;
-  loop::Stability st;
-  loop::FrfMargins fm;
-  fit::RationalModel plant;
-  double band_lo = 0, band_hi = 0;  // the band the model was fitted in, when it says
+  loop::Margins& m = out.m;
+  loop::Stability& st = out.st;
+  loop::FrfMargins& fm = out.fm;
+  static const fit::RationalModel kNoModel;
+  const fit::RationalModel& plant = model ? *model : kNoModel;
   if (frf_plant) {
-    const ident::Frf frf = ident::read_frf_csv(a.plant);
     loop::FrfLoopOptions fo;
     fo.plant_integrators = a.plant_integrators;
     fo.draws = a.draws;
@@ -159,19 +154,12 @@ void run_loop(const LoopArgs& a_in) {
       fo.band_lo_hz = b.lo_hz;
       fo.band_hi_hz = b.hi_hz;
     }
-    fm = loop::frf_margins(frf, c, fo);
+    fm = loop::frf_margins(*frf, c, fo);
     m = fm.nominal;
     st.judged = fm.inferred_unstable >= 0;
     st.stable = fm.inferred_unstable == 0;
     st.reason = fm.stability_note;
   } else {
-    plant = fit::read_model_json(a.plant);
-    const nlohmann::json pj = read_json_file(a.plant, "a model from 'benchid fit'");
-    if (pj.contains("fit") && pj["fit"].contains("band_hz") && pj["fit"]["band_hz"].is_array() &&
-        pj["fit"]["band_hz"].size() == 2 && pj["fit"]["band_hz"][0].is_number() && pj["fit"]["band_hz"][1].is_number()) {
-      band_lo = pj["fit"]["band_hz"][0].get<double>();
-      band_hi = pj["fit"]["band_hz"][1].get<double>();
-    }
     m = loop::model_margins(plant, c);
     st = loop::closed_loop_stability(plant, c, m.f_lo_hz, m.f_hi_hz);
   }
@@ -202,23 +190,16 @@ void run_loop(const LoopArgs& a_in) {
     step = loop::step_metrics(lf, m.crossover_hz, lowest, ref);
     step_note.clear();
   }
-  struct Check {
-    const char* name;
-    double threshold, value;
-    bool pass;
-  };
-  const std::vector<Check> checks{
+  const std::vector<LoopCheck> checks{
       {"phase_margin_deg >=", a.pm_min, m.phase_margin_deg, m.phase_margin_deg >= a.pm_min},
       {"gain_margin_db >=", a.gm_min, m.gain_margin_db, m.gain_margin_db >= a.gm_min},
       {"peak_sensitivity_db <=", a.ms_max_db, ms_db, ms_db <= a.ms_max_db}};
   bool pass = st.judged && st.stable;  // and, below, every figure inside the fitted band
   for (const auto& k : checks) pass = pass && k.pass;
-  const char* caution =
-      "These figures hold only where the plant was measured and the model fits; changing a controller on live "
-      "machinery is at the user's own risk, under the machine's safety rules.";
+  const char* caution = kLoopCaution;
 
   std::ostringstream t;
-  t << "benchid loop: plant " << a.plant << ", controller " << a.controller << "\n";
+  t << "benchid loop: plant " << plant_name << ", controller " << a.controller << "\n";
   t << "  searched " << fmt("%.4g", m.f_lo_hz) << " to " << fmt("%.4g", m.f_hi_hz) << " Hz; crossings (root-refined):\n";
   if (m.crossings.empty()) t << "    none\n";
   // every gain crossing; phase crossings up to eight (a delay makes the phase
@@ -268,8 +249,8 @@ void run_loop(const LoopArgs& a_in) {
     t << "  step: not computed (" << step_note << ")\n";
   t << "  closed-loop stability: " << (st.judged ? (st.stable ? "stable" : "UNSTABLE") : "not judged")
     << (frf_plant && st.judged ? " (inferred)" : "") << " (" << st.reason << ")\n";
+  std::vector<std::string> outside;
   if (band_hi > 0) {
-    std::vector<std::string> outside;
     auto check = [&](const char* what, double f) {
       if (std::isfinite(f) && (f < band_lo || f > band_hi)) outside.push_back(std::string(what) + " at " + fmt("%.4g Hz", f));
     };
@@ -289,7 +270,7 @@ void run_loop(const LoopArgs& a_in) {
 
   nlohmann::json j;
   j["format"] = "benchid.loop/1";
-  j["plant"] = a.plant;
+  j["plant"] = plant_name;
   j["controller"] = a.controller;
   j["gain_margin_db"] = num_or_null(m.gain_margin_db);
   j["gain_margin_hz"] = num_or_null(m.gain_margin_hz);
@@ -334,38 +315,90 @@ void run_loop(const LoopArgs& a_in) {
   v.push_back({{"check", "closed_loop_stable"}, {"pass", st.judged && st.stable}});
   j["verdict"] = {{"pass", pass}, {"checks", v}};
   j["caution"] = caution;
-  const std::string js = j.dump(2) + "\n";
-  if (a.json) {
-    std::cerr << t.str();
+  out.track_hz = track_hz;
+  out.tracking = tracking;
+  out.step = std::move(step);
+  out.step_note = step_note;
+  out.checks = checks;
+  out.outside_band = outside;
+  out.pass = pass;
+  out.text = t.str();
+  out.json = std::move(j);
+  return out;
+}
+
+namespace {
+
+void run_loop(const LoopCommand& cmd) {
+  LoopArgs a = cmd.loop;
+  if (!a.controller.empty()) a.controller = controller_spec(a.controller);
+  refuse_overwriting_input(cmd.out, {cmd.plant});
+  if (a.controller.empty()) throw InputError("no controller; expected --controller SPEC (e.g. pid:kp=1,ki=10)");
+  bool frf_plant = false;
+  {
+    std::string head;
+    std::ifstream in(cmd.plant);
+    std::getline(in, head);
+    frf_plant = head.rfind("# benchid frf", 0) == 0 || head.rfind("freq_hz", 0) == 0;
+  }
+  if (!cmd.sweep.empty()) {
+    run_sweep(cmd, a.controller, frf_plant);
+    return;
+  }
+  LoopAnalysis r;
+  if (frf_plant) {
+    const ident::Frf frf = ident::read_frf_csv(cmd.plant);
+    r = analyse_loop(a, cmd.plant, nullptr, &frf);
+  } else {
+    const fit::RationalModel plant = fit::read_model_json(cmd.plant);
+    double band_lo = 0, band_hi = 0;  // the band the model was fitted in, when it says
+    const nlohmann::json pj = read_json_file(cmd.plant, "a model from 'benchid fit'");
+    if (pj.contains("fit") && pj["fit"].contains("band_hz") && pj["fit"]["band_hz"].is_array() &&
+        pj["fit"]["band_hz"].size() == 2 && pj["fit"]["band_hz"][0].is_number() && pj["fit"]["band_hz"][1].is_number()) {
+      band_lo = pj["fit"]["band_hz"][0].get<double>();
+      band_hi = pj["fit"]["band_hz"][1].get<double>();
+    }
+    r = analyse_loop(a, cmd.plant, &plant, nullptr, band_lo, band_hi);
+  }
+  const std::string js = r.json.dump(2) + "\n";
+  if (cmd.json) {
+    std::cerr << r.text;
     std::cout << js;
   } else {
-    std::cout << t.str();
+    std::cout << r.text;
   }
-  if (!a.out.empty()) write_file_atomically(a.out, js);
-  if (a.strict && !pass) std::exit(3);
+  if (!cmd.out.empty()) write_file_atomically(cmd.out, js);
+  if (cmd.strict && !r.pass) std::exit(3);
 }
 
 }  // namespace
 
+void add_loop_options(CLI::App* c, LoopArgs& a, bool pipeline) {
+  if (!pipeline) {
+    c->add_option("--plant-integrators", a.plant_integrators, "FRF plant: integrators of the plant below the measured "
+                  "band, for the Nyquist inference (default 0)");
+    c->add_option("--band", a.band, "FRF plant: use only lines in LO:HI, Hz (default: all usable lines)");
+  }
+  c->add_option("--draws", a.draws, "FRF plant: Monte Carlo draws of the per-line random error for the +- figures "
+                "(default 200; 0: none)");
+  c->add_option("--controller", a.controller, "Controller SPEC (or a FILE.json holding {\"format\": \"benchid.controller/1\", \"spec\": SPEC}), e.g. pid:kp=2,ki=10,kd=0.05,tf=0.002*notch:f=50,width=10,depth=20 "
+                "(forms gain, pid, lead, lag, notch, poly, roots; @dt=SECONDS for a discrete controller; see README; " +
+                std::string(pipeline ? "default: none, no loop section)" : "required)"));
+  c->add_option("--pm-min", a.pm_min, "Phase margin threshold, deg (default 45, common practice)");
+  c->add_option("--gm-min", a.gm_min, "Gain margin threshold, dB (default 10, common practice)");
+  c->add_option("--ms-max", a.ms_max_db, "Peak sensitivity threshold, dB (default 6, Astrom & Murray)");
+  c->add_option("--tracking-hz", a.tracking_hz, "Frequency where the tracking error |1/(1+L)| is stated, Hz (default: a "
+                "decade below the crossover)");
+}
+
 void add_loop_command(CLI::App& app) {
-  auto a = std::make_shared<LoopArgs>();
+  auto a = std::make_shared<LoopCommand>();
   CLI::App* c = app.add_subcommand(
       "loop", "Loop gain L = C P of a model plant and a controller: every gain and phase crossover (root-refined), "
               "gain, phase and delay margins, Ms, Mt, closed-loop bandwidth and stability, and a verdict.");
   c->add_option("plant", a->plant, "Plant: a model JSON from 'benchid fit', or an FRF CSV from 'benchid frf' (model-free "
                 "margins within the measured band, with their uncertainty)")->required();
-  c->add_option("--plant-integrators", a->plant_integrators, "FRF plant: integrators of the plant below the measured "
-                "band, for the Nyquist inference (default 0)");
-  c->add_option("--band", a->band, "FRF plant: use only lines in LO:HI, Hz (default: all usable lines)");
-  c->add_option("--draws", a->draws, "FRF plant: Monte Carlo draws of the per-line random error for the +- figures "
-                "(default 200; 0: none)");
-  c->add_option("--controller", a->controller, "Controller SPEC (or a FILE.json holding {\"format\": \"benchid.controller/1\", \"spec\": SPEC}), e.g. pid:kp=2,ki=10,kd=0.05,tf=0.002*notch:f=50,width=10,depth=20 "
-                "(forms gain, pid, lead, lag, notch, poly, roots; @dt=SECONDS for a discrete controller; see README; required)");
-  c->add_option("--pm-min", a->pm_min, "Phase margin threshold, deg (default 45, common practice)");
-  c->add_option("--gm-min", a->gm_min, "Gain margin threshold, dB (default 10, common practice)");
-  c->add_option("--ms-max", a->ms_max_db, "Peak sensitivity threshold, dB (default 6, Astrom & Murray)");
-  c->add_option("--tracking-hz", a->tracking_hz, "Frequency where the tracking error |1/(1+L)| is stated, Hz (default: a "
-                "decade below the crossover)");
+  add_loop_options(c, a->loop, false);
   c->add_option("--sweep", a->sweep, "NAME=LO:HI:N: recompute the figures for N values of one controller parameter "
                 "(e.g. kp=0.5:2:10, linear steps) and print a table (default: none)");
   c->add_option("-o,--out", a->out, "Loop JSON to write (benchid.loop/1)");

@@ -1,8 +1,11 @@
 #!/usr/bin/env bash
 # Installs benchid's build and test dependencies from Debian's packages,
 # only those missing (dpkg -s), so a machine that has them is left alone.
+# With --test also what only the tests use: Chromium, which renders the HTML
+# report headless (and a font for it).
 set -euo pipefail
 pkgs=(g++ make cmake pkg-config libeigen3-dev libfftw3-dev libsndfile1-dev libcli11-dev libgtest-dev nlohmann-json3-dev)
+if [ "${1:-}" = "--test" ]; then pkgs+=(chromium fonts-dejavu-core); fi
 missing=()
 for p in "${pkgs[@]}"; do
   dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")

@@ -3,7 +3,7 @@
 # a build under AddressSanitizer + UndefinedBehaviorSanitizer.
 set -euo pipefail
 cd "$(dirname "$0")/.."
-bash tools/deps.sh
+bash tools/deps.sh --test
 cmake -S . -B build -DCMAKE_BUILD_TYPE=Release -DBENCHID_TESTS=ON >/dev/null
 cmake --build build -j2
 ctest --test-dir build --output-on-failure -j2
