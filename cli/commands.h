@@ -13,5 +13,7 @@ void add_excite_command(CLI::App& app);
 void add_fit_command(CLI::App& app);
 void add_replay_command(CLI::App& app);
 void add_loop_command(CLI::App& app);
+void add_report_command(CLI::App& app, const std::string& command_line);
+void add_demo_command(CLI::App& app);
 
 }  // namespace benchid::cli
