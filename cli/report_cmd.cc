@@ -22,6 +22,7 @@
 #include "ident/error.h"
 #include "ident/frf_csv.h"
 #include "ident/record.h"
+#include "loop/controller.h"
 
 namespace benchid::cli {
 
@@ -80,13 +81,21 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   if (!a.keep_dir.empty() && !fs::is_directory(a.keep_dir))
     throw InputError("--keep " + a.keep_dir + ": not a directory; expected an existing folder for the FRF, model and loop files");
 
+  // the options of the later stages are checked before the work starts
+  const fit::FitOptions fit_opts = stage("fit", [&] { return fit_options(a.fit); });
+  LoopArgs loop_args = a.loop;
+  if (!loop_args.controller.empty())
+    stage("loop", [&] {
+      loop_args.controller = controller_spec(loop_args.controller);  // a JSON file becomes its spec
+      loop::parse_controller(loop_args.controller);
+      return 0;
+    });
   // frf
   const ident::Frf frf = stage("frf", [&] { return compute_frf(a.frf); });
   lap(times.frf_s);
   // fit
   const fit::FrfFit ft = stage("fit", [&] {
-    const fit::FitOptions o = fit_options(a.fit);
-    fit::FrfFit f = fit::fit_frf(frf, o);
+    fit::FrfFit f = fit::fit_frf(frf, fit_opts);
     if (!f.result.converged)
       throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
                      " iterations; try a lower --order, a narrower --band or --weighting relative");
@@ -117,12 +126,12 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   // loop
   std::optional<LoopAnalysis> lm, lf;
   std::string frf_loop_note;
-  if (!a.loop.controller.empty()) {
+  if (!loop_args.controller.empty()) {
     lm = stage("loop", [&] {
-      return analyse_loop(a.loop, paths.model, &ft.result.model, nullptr, summary.band_lo_hz, summary.band_hi_hz);
+      return analyse_loop(loop_args, paths.model, &ft.result.model, nullptr, summary.band_lo_hz, summary.band_hi_hz);
     });
     try {  // the same loop on the measured FRF: a second opinion with error bars
-      lf = analyse_loop(a.loop, paths.frf, nullptr, &frf);
+      lf = analyse_loop(loop_args, paths.frf, nullptr, &frf);
     } catch (const std::exception& e) {
       frf_loop_note = e.what();
     }
@@ -173,7 +182,6 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
 }
 
 void add_report_options(CLI::App* c, ReportArgs& a) {
-  c->add_option("record", a.frf.record, "Recording: CSV (time column optional) or sound file (WAV, FLAC, ...)")->required();
   add_frf_options(c, a.frf, true);
   add_fit_options(c, a.fit);
   add_loop_options(c, a.loop, true);

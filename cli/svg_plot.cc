@@ -101,9 +101,16 @@ LogTicks log_ticks(double lo, double hi) {
 }
 
 void nice_range(double& lo, double& hi, bool log) {
-  if (log) {
-    lo = std::pow(10.0, std::floor(std::log10(lo) + 1e-9));
-    hi = std::pow(10.0, std::ceil(std::log10(hi) - 1e-9));
+  if (log) {  // out to the nearest 1, 2 or 5 times a power of ten
+    const double dl = std::pow(10.0, std::floor(std::log10(lo) + 1e-9));
+    double l = dl;
+    for (double m : {2.0, 5.0})
+      if (m * dl <= lo * (1 + 1e-9)) l = m * dl;
+    const double dh = std::pow(10.0, std::floor(std::log10(hi) - 1e-9));
+    double h = 10 * dh;
+    for (double m : {5.0, 2.0, 1.0})
+      if (m * dh >= hi * (1 - 1e-9)) h = m * dh;
+    lo = l, hi = h;
     if (!(hi > lo)) hi = lo * 10;
     return;
   }

@@ -40,7 +40,8 @@ struct LogTicks {
   std::vector<double> major, minor;
 };
 LogTicks log_ticks(double lo, double hi);
-// Range [lo, hi] widened to whole 1-2-5 ticks (linear) or decades (log).
+// Range [lo, hi] widened to whole 1-2-5 ticks (linear), or out to the nearest
+// 1, 2 or 5 times a power of ten (log).
 void nice_range(double& lo, double& hi, bool log);
 // Tick label: SI prefix from 1000 up and below 0.001 (1500 -> "1.5k", 2e-6 -> "2µ"),
 // plain in between (0.25, 100, -45); at most 3 significant digits.
