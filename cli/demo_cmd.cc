@@ -19,12 +19,12 @@ namespace fs = std::filesystem;
 const std::vector<DemoScenario>& demo_scenarios() {
   static const std::vector<DemoScenario> s{
       {"belt_axis", "Belt-driven positioning axis, random noise (invented demo)", "belt_axis/belt_axis_log.csv",
-       "drive_v", "speed_rads", "", "", "auto", "auto", "0.4:200", "pid:kp=0.025,ki=0.8", "belt_axis/belt_axis.truth.json"},
+       "drive_v", "speed_rads", "", "", "auto", "auto", "", "pid:kp=0.025,ki=0.8", "belt_axis/belt_axis.truth.json"},
       {"voice_coil", "Voice-coil actuator, repeated log sweep through an audio interface (invented demo)",
-       "voice_coil/voice_coil_sweep.wav", "1", "2", "", "voice_coil/voice_coil_sweep.plan.json", "5", "auto", "10:2000",
+       "voice_coil/voice_coil_sweep.wav", "1", "2", "", "voice_coil/voice_coil_sweep.plan.json", "5", "auto", "",
        "pid:kp=15,ki=1500,kd=0.04,tf=0.00015", "voice_coil/voice_coil.truth.json"},
       {"pump_speed", "Pump speed loop measured in closed loop with a reference channel (invented demo)",
-       "pump_speed/pump_speed_log.csv", "drive_v", "speed_rpm", "setpoint_rpm", "", "auto", "auto", "0.2:40",
+       "pump_speed/pump_speed_log.csv", "drive_v", "speed_rpm", "setpoint_rpm", "", "auto", "auto", "",
        "pid:kp=0.01,ki=0.05", "pump_speed/pump_speed.truth.json"},
   };
   return s;

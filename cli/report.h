@@ -3,7 +3,9 @@
 
 #include <string>
 
+#include "cli/parse.h"
 #include "cli/stages.h"
+#include "ident/frf.h"
 
 namespace benchid::cli {
 
@@ -26,6 +28,13 @@ struct ReportTimes {
   double frf_s = 0, fit_s = 0, replay_s = 0, loop_s = 0, report_s = 0, write_s = 0;
   double total() const { return frf_s + fit_s + replay_s + loop_s + report_s + write_s; }
 };
+
+// The band `report` fits when no --band is given: from the first trusted line
+// (above the coherence bound, random error <= max_rel_err) up to the last
+// trusted line below which 90 % of the lines, and 12 of the last 16, are
+// trusted. Above it a recording usually has no excitation or no output left.
+constexpr double kTrustedRelErr = 0.2;  // phase s.d. about 11 deg
+Band trusted_band(const ident::Frf& f, double max_rel_err = kTrustedRelErr);
 
 // Runs frf -> fit -> replay -> loop, then writes all files. Throws InputError
 // (bad input; the stage named) or NoResult before anything is written.

@@ -53,6 +53,25 @@ auto stage(const char* name, F&& f) {
 
 }  // namespace
 
+Band trusted_band(const ident::Frf& f, double max_rel_err) {
+  Band b;
+  std::size_t total = 0, good = 0;
+  std::vector<std::uint8_t> recent;
+  for (std::size_t i = 0; i < f.size(); ++i) {
+    const bool ok = f.reliable[i] && std::isfinite(f.rel_err[i]) && f.rel_err[i] <= max_rel_err;
+    if (total == 0 && !ok) continue;  // the band starts at the first trusted line
+    if (total == 0) b.lo_hz = f.freq_hz[i];
+    ++total;
+    good += ok;
+    recent.push_back(ok);
+    if (recent.size() > 16) recent.erase(recent.begin());
+    std::size_t recent_good = 0;
+    for (auto r : recent) recent_good += r;
+    if (ok && good >= 0.9 * static_cast<double>(total) && 4 * recent_good >= 3 * recent.size()) b.hi_hz = f.freq_hz[i];
+  }
+  return b;
+}
+
 ReportPaths report_paths(const std::string& report, const std::string& keep_dir) {
   ReportPaths p;
   p.report = report;
@@ -93,9 +112,22 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   // frf
   const ident::Frf frf = stage("frf", [&] { return compute_frf(a.frf); });
   lap(times.frf_s);
-  // fit
+  // fit, in the trusted band unless a band was given
+  std::string band_note = a.fit.band.empty() ? "" : a.fit.band + " Hz (given)";
   const fit::FrfFit ft = stage("fit", [&] {
-    fit::FrfFit f = fit::fit_frf(frf, fit_opts);
+    fit::FitOptions o = fit_opts;
+    if (a.fit.band.empty()) {
+      const Band b = trusted_band(frf);
+      if (!(b.hi_hz > b.lo_hz))
+        throw NoResult("no band of trusted lines to fit (coherence under its bound or random error above " +
+                       fmt_num(100 * kTrustedRelErr) + " % almost everywhere); check the channels and the excitation");
+      o.band_lo_hz = b.lo_hz;
+      o.band_hi_hz = b.hi_hz;
+      band_note = fmt_num(b.lo_hz) + " to " + fmt_num(b.hi_hz) + " Hz, chosen: up to the last line below which 90 % of "
+                  "lines (and 12 of the last 16) are above the coherence bound with a random error of at most " +
+                  fmt_num(100 * kTrustedRelErr) + " % (--band to choose)";
+    }
+    fit::FrfFit f = fit::fit_frf(frf, o);
     if (!f.result.converged)
       throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
                      " iterations; try a lower --order, a narrower --band or --weighting relative");
@@ -152,8 +184,9 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   d.loop_frf = lf ? &*lf : nullptr;
   d.files = {{paths.frf, "the FRF (benchid frf CSV)"}, {paths.model, "the fitted model (benchid.model/1 JSON)"}};
   if (lm) d.files.emplace_back(paths.loop, "the loop figures on the model (benchid.loop/1 JSON)");
-  d.settings = {{"fit", "order " + a.fit.order + ", delay " + a.fit.delay + ", band " + (a.fit.band.empty() ? "all reliable lines" : a.fit.band + " Hz") +
-                            ", weighting " + a.fit.weighting + ", integrators " + std::to_string(a.fit.integrators)}};
+  d.settings = {{"fit", "order " + a.fit.order + ", delay " + a.fit.delay + ", weighting " + a.fit.weighting +
+                            ", integrators " + std::to_string(a.fit.integrators)},
+                {"fit band", band_note}};
   if (!frf_loop_note.empty()) d.settings.emplace_back("loop on the measured FRF", "not computed: " + frf_loop_note);
   const std::string html = html_report(d);
   std::ostringstream csv;
