@@ -111,10 +111,15 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
     std::normal_distribution<double> n01;
     std::vector<double> pm, gm, ms, fc;
     std::vector<cplx> hp(h.size());
+    // The draws only give spreads, and between lines the plant is a straight
+    // interpolation, so a grid of 8 points per line brackets every crossing
+    // the nominal grid does (crossings are then root-refined exactly); it
+    // makes the draws several times cheaper on long FRFs.
+    const std::size_t draw_points = std::min(o.points, std::max<std::size_t>(2000, 8 * f.size()));
     for (std::size_t d = 0; d < o.draws; ++d) {
       for (std::size_t k = 0; k < h.size(); ++k) hp[k] = h[k] * (1.0 + eps[k] * cplx(n01(gen), n01(gen)));
       const Interp p(f, hp);
-      const Margins m = margins(loop_of(p), lo, hi, o.points);
+      const Margins m = margins(loop_of(p), lo, hi, draw_points);
       if (std::isfinite(m.phase_margin_deg)) pm.push_back(m.phase_margin_deg), fc.push_back(m.crossover_hz);
       if (std::isfinite(m.gain_margin_db)) gm.push_back(m.gain_margin_db);
       ms.push_back(20 * std::log10(m.ms));
