@@ -1,4 +1,4 @@
-// Generator of the invented "belt axis" demo recording (see belt_axis/TRUTH.md).
+// Generator of the invented "belt axis" demo recording (see belt_axis/README.md).
 //
 // INVENTED SCENARIO, for demonstration only: a belt-driven carriage on a
 // packaging-line test rig, driven by a voltage-commanded motor drive. The
@@ -18,7 +18,7 @@
 
 namespace {
 
-// Stated truth (TRUTH.md repeats these).
+// Stated truth (README.md repeats these).
 constexpr double kRateHz = 2000.0;
 constexpr double kDurationS = 40.0;
 constexpr double kGain = 40.0;                   // rad/s per V at DC
@@ -90,7 +90,7 @@ int main(int argc, char** argv) {
   }
   std::fprintf(out,
                "# INVENTED demo data (benchid datasets_demo/belt_axis): belt-driven carriage, drive command "
-               "to motor speed; see TRUTH.md\n");
+               "to motor speed; see README.md\n");
   std::fprintf(out, "time_s,drive_v,speed_rads\n");
   double x[3] = {0, 0, 0};
   const int sub = 16;

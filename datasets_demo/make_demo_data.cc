@@ -89,7 +89,7 @@ void belt_axis_truth(const std::string& dir) {
   pair(p, 31.0, 0.04);
   p.emplace_back(-1 / 0.08, 0);
   write_truth(dir + "/belt_axis/belt_axis.truth.json", with_dc_gain(z, p, 40.0, 0.0015),
-              "INVENTED demo plant (belt_axis): drive command V to motor speed rad/s; see TRUTH.md");
+              "INVENTED demo plant (belt_axis): drive command V to motor speed rad/s; see README.md");
 }
 
 // ---- voice coil: stereo WAV through an audio interface, repeated log sweep ----
