@@ -158,7 +158,7 @@ struct LoopCurve {
 LoopCurve loop_curve(const LoopAnalysis& la, const fit::RationalModel* plant, double lo_hz, double hi_hz) {
   const loop::Controller c = loop::parse_controller(la.controller);
   LoopCurve lc;
-  lc.f_hz = log_grid(lo_hz, hi_hz, 800);
+  lc.f_hz = log_grid(lo_hz, hi_hz, 2000);  // dense enough for a lightly damped mode on the Nyquist plot
   for (double f : lc.f_hz) {
     if (la.frf_plant)
       lc.l.push_back(loop::margins_loop_value(la.fm, f));
@@ -438,7 +438,7 @@ std::string html_report(const ReportData& d) {
       p.guides.push_back({false, 0, "0 dB"});
       for (const auto& x : m.crossings)
         if (x.kind == loop::Crossing::Kind::gain)
-          p.markers.push_back({"crossover " + svg::si_format(x.freq_hz) + "Hz, PM " + fmt("%.1f", x.margin) + "\xC2\xB0", x.freq_hz, 0.0, svg::black});
+          p.markers.push_back({"crossover " + svg::si_quantity(x.freq_hz, "Hz") + ", PM " + fmt("%.1f", x.margin) + "\xC2\xB0", x.freq_hz, 0.0, svg::black});
         else if (std::fabs(x.margin) < 60 && p.markers.size() < 6)
           p.markers.push_back({"GM " + fmt("%.1f", x.margin) + " dB", x.freq_hz, -x.margin, svg::vermillion});
       p.fit_y();
@@ -495,7 +495,7 @@ std::string html_report(const ReportData& d) {
       if (std::isfinite(m.bandwidth_hz) && p.x.contains(m.bandwidth_hz)) {
         const cplx lb = la.frf_plant ? loop::margins_loop_value(la.fm, m.bandwidth_hz)
                                      : model.response(m.bandwidth_hz) * loop::parse_controller(la.controller).model.response(m.bandwidth_hz);
-        p.markers.push_back({"bandwidth " + svg::si_format(m.bandwidth_hz) + "Hz", m.bandwidth_hz, 20 * std::log10(std::abs(lb / (1.0 + lb))), svg::green});
+        p.markers.push_back({"bandwidth " + svg::si_quantity(m.bandwidth_hz, "Hz"), m.bandwidth_hz, 20 * std::log10(std::abs(lb / (1.0 + lb))), svg::green});
       }
       p.fit_y();
       p.guides.push_back({false, la.checks.size() > 2 ? la.checks[2].threshold : 6, "Ms limit", svg::vermillion});
@@ -518,14 +518,14 @@ std::string html_report(const ReportData& d) {
         if (std::isnan(t90) && s.y[k] >= 0.9 * final) t90 = s.t[k], y90 = s.y[k];
         if (s.y[k] > s.y[ipk]) ipk = k;
       }
-      if (std::isfinite(t90)) p.markers.push_back({"90 %: rise " + svg::si_format(s.rise_time_s) + "s", t90, y90, svg::green});
+      if (std::isfinite(t90)) p.markers.push_back({"90 %: rise " + svg::si_quantity(s.rise_time_s, "s"), t90, y90, svg::green});
       if (std::isfinite(t10)) p.markers.push_back({"10 %", t10, y10, svg::green});
       if (s.overshoot_pct > 0.05 && !s.y.empty())
         p.markers.push_back({"overshoot " + fmt("%.1f", s.overshoot_pct) + " %", s.t[ipk], s.y[ipk], svg::vermillion});
       if (std::isfinite(s.settling_time_s) && s.settling_time_s <= p.x.hi) {
         const auto it = std::lower_bound(s.t.begin(), s.t.end(), s.settling_time_s);
         const std::size_t k = std::min(s.y.size() - 1, static_cast<std::size_t>(it - s.t.begin()));
-        p.markers.push_back({"settled (2 %) " + svg::si_format(s.settling_time_s) + "s", s.t[k], s.y[k], svg::black});
+        p.markers.push_back({"settled (2 %) " + svg::si_quantity(s.settling_time_s, "s"), s.t[k], s.y[k], svg::black});
       }
       p.y.label = "output / reference step";
       p.fit_y();

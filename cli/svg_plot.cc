@@ -136,6 +136,15 @@ std::string si_format(double v) {
   return std::string(b) + prefixes[e3 + 4];
 }
 
+std::string si_quantity(double v, const std::string& unit) {
+  if (!std::isfinite(v)) return "";
+  static const char* prefixes[] = {"p", "n", "\xC2\xB5", "m", "", "k", "M", "G"};
+  const int e3 = v == 0 ? 0 : std::clamp(static_cast<int>(std::floor(std::log10(std::fabs(v)) / 3 + 1e-9)), -4, 3);
+  char b[32];
+  std::snprintf(b, sizeof b, "%.3g", v / std::pow(1000.0, e3));
+  return std::string(b) + " " + prefixes[e3 + 4] + unit;
+}
+
 Plot::Plot(std::string title, double width_px, double height_px)
     : title_(std::move(title)), width_(width_px), height_(height_px) {
   x.px0 = kLeftPx;
@@ -305,17 +314,47 @@ std::string Plot::render() const {
       << "\"/>\n";
   }
   o << "</g>\n";
+  // labels: the first place near the marker, alternating below and above,
+  // where the text (about 6.2 px per character, 12 px high) overlaps no label
+  // already placed and stays inside the frame
+  struct Box {
+    double x0, y0, x1, y1;
+  };
+  std::vector<Box> placed;
+  for (const auto& m : markers) {
+    if (!x.contains(m.x) || !y.contains(m.y)) continue;
+    const double px = x.to_px(m.x), py = y.to_px(m.y);
+    placed.push_back({px - 6, py - 6, px + 6, py + 6});
+  }
+  std::size_t marker_index = 0;
   for (const auto& m : markers) {
     if (!x.contains(m.x) || !y.contains(m.y)) continue;
     const double px = x.to_px(m.x), py = y.to_px(m.y);
     const bool right_half = px > (left + right) / 2;
-    const bool low = py > (top + bottom) / 2;
+    const double w = 6.2 * static_cast<double>(m.label.size()) + 2;
+    const double tx = px + (right_half ? -8 : 8);
+    const double bx0 = right_half ? tx - w : tx, bx1 = right_half ? tx : tx + w;
+    double ty = py + 16;
+    for (double dy : {16.0, -8.0, 30.0, -22.0, 44.0, -36.0, 58.0, -50.0}) {
+      const double cand = py + dy;  // text baseline
+      const Box b{bx0, cand - 11, bx1, cand + 2};
+      if (b.y0 < top || b.y1 > bottom) continue;
+      bool clash = false;
+      for (std::size_t k = 0; k < placed.size(); ++k)
+        if (k != marker_index && b.x0 < placed[k].x1 && b.x1 > placed[k].x0 && b.y0 < placed[k].y1 && b.y1 > placed[k].y0)
+          clash = true;
+      if (!clash) {
+        ty = cand;
+        break;
+      }
+    }
+    placed.push_back({bx0, ty - 11, bx1, ty + 2});
+    ++marker_index;
     o << "<g class=\"marker\" data-marker=\"" << escape(m.label) << "\" data-at=\"" << full(m.x) << " " << full(m.y)
       << "\"><path d=\"M" << num(px - 5) << " " << num(py) << "L" << num(px) << " " << num(py - 5) << "L" << num(px + 5)
       << " " << num(py) << "L" << num(px) << " " << num(py + 5) << "Z\" fill=\"#ffffff\" stroke=\""
-      << colour_hex(m.colour) << "\" stroke-width=\"2\"/><text class=\"mlabel\" x=\"" << num(px + (right_half ? -8 : 8))
-      << "\" y=\"" << num(py + (low ? -8 : 16)) << "\" text-anchor=\"" << (right_half ? "end" : "start") << "\">"
-      << escape(m.label) << "</text></g>\n";
+      << colour_hex(m.colour) << "\" stroke-width=\"2\"/><text class=\"mlabel\" x=\"" << num(tx) << "\" y=\""
+      << num(ty) << "\" text-anchor=\"" << (right_half ? "end" : "start") << "\">" << escape(m.label) << "</text></g>\n";
   }
   // legend: one row under the title, left to right
   double lx = left;

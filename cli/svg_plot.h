@@ -46,6 +46,9 @@ void nice_range(double& lo, double& hi, bool log);
 // Tick label: SI prefix from 1000 up and below 0.001 (1500 -> "1.5k", 2e-6 -> "2µ"),
 // plain in between (0.25, 100, -45); at most 3 significant digits.
 std::string si_format(double v);
+// A value with its unit and an SI prefix, 3 significant digits: (0.00143, "s") -> "1.43 ms",
+// (133.3, "Hz") -> "133 Hz", (2500, "Hz") -> "2.5 kHz".
+std::string si_quantity(double v, const std::string& unit);
 
 struct Series {
   std::string name;  // legend text

@@ -83,6 +83,10 @@ TEST(SvgTicks, LabelsUseSiPrefixesOutsideOneThousandth) {
   EXPECT_EQ(svg::si_format(-45), "-45");
   EXPECT_EQ(svg::si_format(0), "0");
   EXPECT_EQ(svg::si_format(100), "100");
+  EXPECT_EQ(svg::si_quantity(0.00143, "s"), "1.43 ms");
+  EXPECT_EQ(svg::si_quantity(133.3, "Hz"), "133 Hz");
+  EXPECT_EQ(svg::si_quantity(2500, "Hz"), "2.5 kHz");
+  EXPECT_EQ(svg::si_quantity(4.7e-7, "s"), "470 ns");
 }
 
 struct SvgPlot {
@@ -314,6 +318,17 @@ TEST(DemoReport, PlotsMapBackToTheFilesNumbers) {
     const double px = std::stod(m[3]) + 5, py = std::stod(m[4]);  // the diamond starts 5 px left of its centre
     EXPECT_NEAR(std::log10(lmag.x.from_px(px)), std::log10(fc), 0.005 * std::log10(lmag.x.hi / lmag.x.lo));
     EXPECT_NEAR(lmag.y.from_px(py), 0.0, 0.005 * (lmag.y.hi - lmag.y.lo));
+    // a gain-margin marker at the headline phase crossover, at -GM dB
+    bool gm_found = false;
+    const double fg = lj["gain_margin_hz"], gm = lj["gain_margin_db"];
+    const std::regex gm_marker(R"re(<g class="marker" data-marker="GM [^"]*" data-at="([^ ]+) ([^"]+)"><path d="M(-?[0-9.]+) (-?[0-9.]+)L)re");
+    for (std::sregex_iterator it(lmag.body.begin(), lmag.body.end(), gm_marker), end; it != end; ++it) {
+      const double mx = lmag.x.from_px(std::stod((*it)[3]) + 5), my = lmag.y.from_px(std::stod((*it)[4]));
+      if (std::fabs(std::log10(mx / fg)) < 0.005 * std::log10(lmag.x.hi / lmag.x.lo) &&
+          std::fabs(my + gm) < 0.005 * (lmag.y.hi - lmag.y.lo))
+        gm_found = true;
+    }
+    EXPECT_TRUE(gm_found) << "no marker at the gain margin " << gm << " dB, " << fg << " Hz";
     // the Ms circle has radius 1/Ms
     const SvgPlot& nyq = find("Nyquist");
     const std::regex circle(R"re(data-circle="Ms circle" data-at="([^ ]+) ([^ ]+) ([^"]+)")re");
