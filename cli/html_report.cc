@@ -26,17 +26,7 @@ std::string fmt(const char* f, double v) {
   return b;
 }
 
-std::string esc(const std::string& s) {
-  std::string o;
-  for (char c : s) {
-    if (c == '<') o += "&lt;";
-    else if (c == '>') o += "&gt;";
-    else if (c == '&') o += "&amp;";
-    else if (c == '"') o += "&quot;";
-    else o += c;
-  }
-  return o;
-}
+std::string esc(const std::string& s) { return svg::xml_escape(s); }
 
 std::vector<double> log_grid(double lo, double hi, std::size_t n) {
   std::vector<double> f(n);
@@ -97,6 +87,17 @@ svg.plot .guide{stroke-width:1.2;stroke-dasharray:2 3}
 @media print{figure.plot-box,table{break-inside:avoid}body{max-width:none}}
 pre{white-space:pre-wrap;font-size:.85em;background:#f4f4f4;padding:6px}
 )";
+
+// Log frequency axis from the plot's series, labelled; dotted verticals at the
+// fitted band's edges when band_hi_hz > 0.
+void frequency_axis(svg::Plot& p, double band_lo_hz, double band_hi_hz) {
+  if (band_hi_hz > 0) {
+    p.guides.push_back({true, band_lo_hz, "fit band start"});
+    p.guides.push_back({true, band_hi_hz, "fit band end"});
+  }
+  p.fit_x(true);
+  p.x.label = "frequency (Hz)";
+}
 
 std::string figure(const svg::Plot& p, const std::string& caption) {
   return "<figure class=\"plot-box\">\n" + p.render() + "<figcaption>" + caption + "</figcaption>\n</figure>\n";
@@ -250,12 +251,9 @@ std::string html_report(const ReportData& d) {
     p.series.push_back({"measured", frf.freq_hz, mag, svg::blue, 1.6});
     p.series.push_back({"model", fg, mmag, svg::vermillion, 1.8, true});
     p.series.push_back({"low coherence", f_low, mag_low, svg::orange, 1, false, true, false});
-    p.fit_x(true);
-    p.x.label = "frequency (Hz)";
+    frequency_axis(p, ft.data.freq_hz.front(), ft.data.freq_hz.back());
     p.y.label = "magnitude (dB re 1 " + ou + "/" + iu + ")";
     p.fit_y();
-    p.guides.push_back({true, ft.data.freq_hz.front(), "fit band start"});
-    p.guides.push_back({true, ft.data.freq_hz.back(), "fit band end"});
     o << figure(p, "Measured FRF with its 1-standard-deviation random error (shaded), the fitted model (dashed), "
                    "lines below the zero-coherence bound as dots; dotted verticals bound the fitted band.");
   }
@@ -264,13 +262,10 @@ std::string html_report(const ReportData& d) {
     p.series.push_back({"measured", frf.freq_hz, ph, svg::blue, 1.6});
     p.series.push_back({"model", fg, mph, svg::vermillion, 1.8, true});
     p.series.push_back({"low coherence", f_low, ph_low, svg::orange, 1, false, true, false});
-    p.fit_x(true);
-    p.x.label = "frequency (Hz)";
+    frequency_axis(p, ft.data.freq_hz.front(), ft.data.freq_hz.back());
     p.y.label = "phase (deg)";
     p.y.tick_step = 45;
     p.fit_y(0.02);
-    p.guides.push_back({true, ft.data.freq_hz.front(), "fit band start"});
-    p.guides.push_back({true, ft.data.freq_hz.back(), "fit band end"});
     o << figure(p, "Phase unwrapped along frequency; the model's phase is shifted by whole turns to meet the "
                    "measurement at the fitted band's first line.");
   }
@@ -278,8 +273,7 @@ std::string html_report(const ReportData& d) {
     svg::Plot p("Coherence", 720, 220);
     p.series.push_back({"coherence", frf.freq_hz, frf.coherence, svg::blue, 1.4});
     p.series.push_back({"below the bound", f_low, coh_low, svg::orange, 1, false, true});
-    p.fit_x(true);
-    p.x.label = "frequency (Hz)";
+    frequency_axis(p, 0, 0);
     p.y.label = "coherence";
     p.y.lo = 0, p.y.hi = 1, p.y.tick_step = 0.25;
     p.guides.push_back({false, frf.coherence_bound, "zero-coherence bound", svg::vermillion});
@@ -307,8 +301,7 @@ std::string html_report(const ReportData& d) {
     svg::Plot p("Fit residual, magnitude", 480, 260);
     p.bands.push_back({"\xC2\xB1 1 s.d.", ft.data.freq_hz, sd_db_lo, sd_db_hi, svg::sky});
     p.series.push_back({"model / measured", ft.data.freq_hz, res_db, svg::vermillion, 1.4});
-    p.fit_x(true);
-    p.x.label = "frequency (Hz)";
+    frequency_axis(p, 0, 0);
     p.y.label = "residual (dB)";
     p.fit_y();
     o << figure(p, "20 log10 |model / measured| at the fitted lines, against the measurement's random error.");
@@ -316,8 +309,7 @@ std::string html_report(const ReportData& d) {
   {
     svg::Plot p("Fit residual, phase", 480, 260);
     p.series.push_back({"model \xE2\x88\x92 measured", ft.data.freq_hz, res_deg, svg::vermillion, 1.4});
-    p.fit_x(true);
-    p.x.label = "frequency (Hz)";
+    frequency_axis(p, 0, 0);
     p.y.label = "residual (deg)";
     p.fit_y();
     o << figure(p, "arg(model / measured) at the fitted lines.");
@@ -430,10 +422,7 @@ std::string html_report(const ReportData& d) {
       svg::Plot p("Loop gain magnitude |L|");
       p.series.push_back({"L on the measured FRF", fl, lmag_meas, svg::blue, 1, false, true, false});
       p.series.push_back({"L on the model", lc.f_hz, lmag, svg::vermillion, 1.8});
-      p.guides.push_back({true, ft.data.freq_hz.front(), "fit band start"});
-      p.guides.push_back({true, ft.data.freq_hz.back(), "fit band end"});
-      p.fit_x(true);
-      p.x.label = "frequency (Hz)";
+      frequency_axis(p, ft.data.freq_hz.front(), ft.data.freq_hz.back());
       p.y.label = "|L| (dB)";
       p.guides.push_back({false, 0, "0 dB"});
       for (const auto& x : m.crossings)
@@ -450,10 +439,7 @@ std::string html_report(const ReportData& d) {
       svg::Plot p("Loop gain phase arg L");
       p.series.push_back({"L on the measured FRF", fl, lph_meas, svg::blue, 1, false, true, false});
       p.series.push_back({"L on the model", lc.f_hz, lph, svg::vermillion, 1.8});
-      p.guides.push_back({true, ft.data.freq_hz.front(), "fit band start"});
-      p.guides.push_back({true, ft.data.freq_hz.back(), "fit band end"});
-      p.fit_x(true);
-      p.x.label = "frequency (Hz)";
+      frequency_axis(p, ft.data.freq_hz.front(), ft.data.freq_hz.back());
       p.y.label = "arg L (deg)";
       p.y.tick_step = 45;
       for (const auto& x : m.crossings) {
@@ -488,8 +474,7 @@ std::string html_report(const ReportData& d) {
       svg::Plot p("Sensitivity |S| and complementary sensitivity |T|");
       p.series.push_back({"|S| = |1/(1+L)|", lc.f_hz, smag, svg::blue, 1.6});
       p.series.push_back({"|T| = |L/(1+L)|", lc.f_hz, tmag, svg::green, 1.6, true});
-      p.fit_x(true);
-      p.x.label = "frequency (Hz)";
+      frequency_axis(p, 0, 0);
       p.y.label = "magnitude (dB)";
       if (m.ms > 0 && p.x.contains(m.ms_hz)) p.markers.push_back({"Ms " + fmt("%.2f", 20 * std::log10(m.ms)) + " dB", m.ms_hz, 20 * std::log10(m.ms), svg::blue});
       if (std::isfinite(m.bandwidth_hz) && p.x.contains(m.bandwidth_hz)) {

@@ -24,7 +24,9 @@ std::string full(double v) {  // data value in an attribute
   return b;
 }
 
-std::string escape(const std::string& s) {
+}  // namespace
+
+std::string xml_escape(const std::string& s) {
   std::string o;
   for (char c : s) {
     if (c == '<') o += "&lt;";
@@ -35,6 +37,8 @@ std::string escape(const std::string& s) {
   }
   return o;
 }
+
+namespace {
 
 double nice_step(double span, int target) {
   const double raw = span / std::max(1, target);
@@ -203,9 +207,9 @@ std::string Plot::render() const {
     return std::string(a.log ? "log " : "lin ") + full(a.lo) + " " + full(a.hi) + " " + full(a.px0) + " " + full(a.px1);
   };
   o << "<svg class=\"plot\" viewBox=\"0 0 " << num(width_) << " " << num(height_)
-    << "\" role=\"img\" aria-label=\"" << escape(title_) << "\" data-x=\"" << axis_attr(x) << "\" data-y=\""
+    << "\" role=\"img\" aria-label=\"" << xml_escape(title_) << "\" data-x=\"" << axis_attr(x) << "\" data-y=\""
     << axis_attr(y) << "\">\n";
-  o << "<title>" << escape(title_) << "</title>\n";
+  o << "<title>" << xml_escape(title_) << "</title>\n";
   const double left = x.px0, right = x.px1, top = y.px1, bottom = y.px0;
   o << "<rect class=\"frame\" x=\"" << num(left) << "\" y=\"" << num(top) << "\" width=\"" << num(right - left)
     << "\" height=\"" << num(bottom - top) << "\"/>\n";
@@ -243,10 +247,10 @@ std::string Plot::render() const {
   }
   for (double v : yt) hgrid(v);
   o << "<text class=\"label\" x=\"" << num((left + right) / 2) << "\" y=\"" << num(height_ - 6)
-    << "\" text-anchor=\"middle\">" << escape(x.label) << "</text>\n";
+    << "\" text-anchor=\"middle\">" << xml_escape(x.label) << "</text>\n";
   o << "<text class=\"label\" transform=\"translate(14 " << num((top + bottom) / 2)
-    << ") rotate(-90)\" text-anchor=\"middle\">" << escape(y.label) << "</text>\n";
-  o << "<text class=\"title\" x=\"" << num(left) << "\" y=\"16\">" << escape(title_) << "</text>\n";
+    << ") rotate(-90)\" text-anchor=\"middle\">" << xml_escape(y.label) << "</text>\n";
+  o << "<text class=\"title\" x=\"" << num(left) << "\" y=\"16\">" << xml_escape(title_) << "</text>\n";
 
   // data, clipped to the frame as a second guard (points outside already break lines)
   static int plot_id = 0;
@@ -259,7 +263,7 @@ std::string Plot::render() const {
     std::vector<std::pair<double, double>> up, dn;
     auto flush = [&] {
       if (up.size() >= 2) {
-        o << "<path class=\"band\" data-band=\"" << escape(b.name) << "\" fill=\"" << colour_hex(b.colour) << "\" d=\"";
+        o << "<path class=\"band\" data-band=\"" << xml_escape(b.name) << "\" fill=\"" << colour_hex(b.colour) << "\" d=\"";
         for (std::size_t i = 0; i < up.size(); ++i) o << (i ? "L" : "M") << num(up[i].first) << " " << num(up[i].second);
         for (std::size_t i = dn.size(); i-- > 0;) o << "L" << num(dn[i].first) << " " << num(dn[i].second);
         o << "Z\"/>\n";
@@ -278,7 +282,7 @@ std::string Plot::render() const {
   }
   for (const auto& c : circles) {
     const double rx = std::fabs(x.to_px(c.cx + c.r) - x.to_px(c.cx)), ry = std::fabs(y.to_px(c.cy + c.r) - y.to_px(c.cy));
-    o << "<ellipse class=\"circle\" data-circle=\"" << escape(c.name) << "\" data-at=\"" << full(c.cx) << " " << full(c.cy)
+    o << "<ellipse class=\"circle\" data-circle=\"" << xml_escape(c.name) << "\" data-at=\"" << full(c.cx) << " " << full(c.cy)
       << " " << full(c.r) << "\" cx=\"" << num(x.to_px(c.cx)) << "\" cy=\"" << num(y.to_px(c.cy)) << "\" rx=\"" << num(rx)
       << "\" ry=\"" << num(ry) << "\" stroke=\"" << colour_hex(c.colour) << "\"" << (c.dashed ? " stroke-dasharray=\"5 4\"" : "")
       << "/>\n";
@@ -286,13 +290,13 @@ std::string Plot::render() const {
   for (const auto& g : guides) {
     if (!(g.vertical ? x.contains(g.at) : y.contains(g.at))) continue;
     const double p = g.vertical ? x.to_px(g.at) : y.to_px(g.at);
-    o << "<line class=\"guide\" data-guide=\"" << escape(g.label) << "\" stroke=\"" << colour_hex(g.colour) << "\" x1=\""
+    o << "<line class=\"guide\" data-guide=\"" << xml_escape(g.label) << "\" stroke=\"" << colour_hex(g.colour) << "\" x1=\""
       << num(g.vertical ? p : left) << "\" y1=\"" << num(g.vertical ? top : p) << "\" x2=\"" << num(g.vertical ? p : right)
       << "\" y2=\"" << num(g.vertical ? bottom : p) << "\"/>\n";
   }
   for (const auto& s : series) {
     if (s.dots) {
-      o << "<g class=\"dots\" data-series=\"" << escape(s.name) << "\" fill=\"" << colour_hex(s.colour) << "\">";
+      o << "<g class=\"dots\" data-series=\"" << xml_escape(s.name) << "\" fill=\"" << colour_hex(s.colour) << "\">";
       for (std::size_t i = 0; i < s.x.size() && i < s.y.size(); ++i)
         if (x.contains(s.x[i]) && y.contains(s.y[i]))
           o << "<circle cx=\"" << num(x.to_px(s.x[i])) << "\" cy=\"" << num(y.to_px(s.y[i])) << "\" r=\"2.2\"/>";
@@ -309,7 +313,7 @@ std::string Plot::render() const {
       d += (pen ? "L" : "M") + num(x.to_px(s.x[i])) + " " + num(y.to_px(s.y[i]));
       pen = true;
     }
-    o << "<path class=\"series\" data-series=\"" << escape(s.name) << "\" stroke=\"" << colour_hex(s.colour)
+    o << "<path class=\"series\" data-series=\"" << xml_escape(s.name) << "\" stroke=\"" << colour_hex(s.colour)
       << "\" stroke-width=\"" << num(s.width) << "\"" << (s.dashed ? " stroke-dasharray=\"6 4\"" : "") << " d=\"" << d
       << "\"/>\n";
   }
@@ -350,17 +354,17 @@ std::string Plot::render() const {
     }
     placed.push_back({bx0, ty - 11, bx1, ty + 2});
     ++marker_index;
-    o << "<g class=\"marker\" data-marker=\"" << escape(m.label) << "\" data-at=\"" << full(m.x) << " " << full(m.y)
+    o << "<g class=\"marker\" data-marker=\"" << xml_escape(m.label) << "\" data-at=\"" << full(m.x) << " " << full(m.y)
       << "\"><path d=\"M" << num(px - 5) << " " << num(py) << "L" << num(px) << " " << num(py - 5) << "L" << num(px + 5)
       << " " << num(py) << "L" << num(px) << " " << num(py + 5) << "Z\" fill=\"#ffffff\" stroke=\""
       << colour_hex(m.colour) << "\" stroke-width=\"2\"/><text class=\"mlabel\" x=\"" << num(tx) << "\" y=\""
-      << num(ty) << "\" text-anchor=\"" << (right_half ? "end" : "start") << "\">" << escape(m.label) << "</text></g>\n";
+      << num(ty) << "\" text-anchor=\"" << (right_half ? "end" : "start") << "\">" << xml_escape(m.label) << "</text></g>\n";
   }
   // legend: one row under the title, left to right
   double lx = left;
   for (const auto& b : bands) {
     o << "<rect class=\"band\" x=\"" << num(lx) << "\" y=\"25\" width=\"18\" height=\"9\" fill=\"" << colour_hex(b.colour)
-      << "\"/><text class=\"legend\" x=\"" << num(lx + 22) << "\" y=\"33\">" << escape(b.name) << "</text>\n";
+      << "\"/><text class=\"legend\" x=\"" << num(lx + 22) << "\" y=\"33\">" << xml_escape(b.name) << "</text>\n";
     lx += 30 + 6.2 * static_cast<double>(b.name.size());
   }
   for (const auto& s : series) {
@@ -370,13 +374,13 @@ std::string Plot::render() const {
       o << "<line x1=\"" << num(lx) << "\" y1=\"29.5\" x2=\"" << num(lx + 18) << "\" y2=\"29.5\" stroke=\""
         << colour_hex(s.colour) << "\" stroke-width=\"" << num(s.width + 0.4) << "\""
         << (s.dashed ? " stroke-dasharray=\"6 4\"" : "") << "/>";
-    o << "<text class=\"legend\" x=\"" << num(lx + 22) << "\" y=\"33\">" << escape(s.name) << "</text>\n";
+    o << "<text class=\"legend\" x=\"" << num(lx + 22) << "\" y=\"33\">" << xml_escape(s.name) << "</text>\n";
     lx += 30 + 6.2 * static_cast<double>(s.name.size());
   }
   for (const auto& c : circles) {
     o << "<line x1=\"" << num(lx) << "\" y1=\"29.5\" x2=\"" << num(lx + 18) << "\" y2=\"29.5\" stroke=\""
       << colour_hex(c.colour) << "\" stroke-width=\"1.4\" stroke-dasharray=\"5 4\"/><text class=\"legend\" x=\""
-      << num(lx + 22) << "\" y=\"33\">" << escape(c.name) << "</text>\n";
+      << num(lx + 22) << "\" y=\"33\">" << xml_escape(c.name) << "</text>\n";
     lx += 30 + 6.2 * static_cast<double>(c.name.size());
   }
   o << "</svg>\n";

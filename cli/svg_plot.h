@@ -18,6 +18,9 @@
 
 namespace benchid::cli::svg {
 
+// Text for an XML attribute or element: < > & " escaped.
+std::string xml_escape(const std::string& s);
+
 // Palette indices (Okabe-Ito).
 enum Colour { black, orange, sky, green, yellow, blue, vermillion, purple, grey };
 const char* colour_hex(Colour c);
