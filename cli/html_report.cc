@@ -4,6 +4,7 @@
 #include <cmath>
 #include <complex>
 #include <cstdio>
+#include <limits>
 #include <numbers>
 #include <sstream>
 
@@ -61,8 +62,9 @@ body{margin:0 auto;max-width:1000px;padding:14px;font:15px/1.45 "DejaVu Sans",Ve
 h1{font-size:1.5em;margin:.2em 0 .1em;color:var(--accent)}
 h2{font-size:1.2em;margin:1.4em 0 .4em;padding-bottom:.15em;border-bottom:2px solid var(--accent);color:var(--accent)}
 .sub{color:var(--muted);margin:0 0 .8em}
-table{border-collapse:collapse;margin:.4em 0 .8em;font-size:.93em}
-th,td{border:1px solid var(--rule);padding:3px 8px;text-align:left;vertical-align:top}
+table{border-collapse:collapse;margin:.4em 0 .8em;font-size:.93em;max-width:100%}
+th,td{border:1px solid var(--rule);padding:3px 8px;text-align:left;vertical-align:top;overflow-wrap:anywhere}
+td:first-child,th:first-child{overflow-wrap:normal}
 th{background:#eef2f5}
 td.n{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 .caution{border:2px solid #000;background:#fff7d6;padding:8px 12px;margin:.8em 0}
@@ -97,6 +99,19 @@ void frequency_axis(svg::Plot& p, double band_lo_hz, double band_hi_hz) {
   }
   p.fit_x(true);
   p.x.label = "frequency (Hz)";
+}
+
+// The range a Bode plot must show: the measured values inside the fitted band
+// and the model's over the plot. Lines outside the band may be far off (an
+// H1 estimate where the input has no energy) and must not squash the rest.
+std::pair<double, double> must_show(const std::vector<double>& f, const std::vector<double>& v, double band_lo_hz,
+                                    double band_hi_hz, const std::vector<double>& model) {
+  double lo = std::numeric_limits<double>::infinity(), hi = -lo;
+  for (std::size_t i = 0; i < f.size(); ++i)
+    if (f[i] >= band_lo_hz && f[i] <= band_hi_hz && std::isfinite(v[i])) lo = std::min(lo, v[i]), hi = std::max(hi, v[i]);
+  for (double m : model)
+    if (std::isfinite(m)) lo = std::min(lo, m), hi = std::max(hi, m);
+  return {lo, hi};
 }
 
 std::string figure(const svg::Plot& p, const std::string& caption) {
@@ -253,9 +268,11 @@ std::string html_report(const ReportData& d) {
     p.series.push_back({"low coherence", f_low, mag_low, svg::orange, 1, false, true, false});
     frequency_axis(p, ft.data.freq_hz.front(), ft.data.freq_hz.back());
     p.y.label = "magnitude (dB re 1 " + ou + "/" + iu + ")";
-    p.fit_y();
+    const auto [lo, hi] = must_show(frf.freq_hz, mag, ft.data.freq_hz.front(), ft.data.freq_hz.back(), mmag);
+    p.fit_y_range(lo, hi, 0.08);
     o << figure(p, "Measured FRF with its 1-standard-deviation random error (shaded), the fitted model (dashed), "
-                   "lines below the zero-coherence bound as dots; dotted verticals bound the fitted band.");
+                   "lines below the zero-coherence bound as dots; dotted verticals bound the fitted band. The scale "
+                   "shows the fitted band and the model; lines beyond it are cut off at the frame.");
   }
   {
     svg::Plot p("Phase of H");
@@ -265,7 +282,8 @@ std::string html_report(const ReportData& d) {
     frequency_axis(p, ft.data.freq_hz.front(), ft.data.freq_hz.back());
     p.y.label = "phase (deg)";
     p.y.tick_step = 45;
-    p.fit_y(0.02);
+    const auto [lo, hi] = must_show(frf.freq_hz, ph, ft.data.freq_hz.front(), ft.data.freq_hz.back(), mph);
+    p.fit_y_range(lo, hi, 0.02);
     o << figure(p, "Phase unwrapped along frequency; the model's phase is shifted by whole turns to meet the "
                    "measurement at the fitted band's first line.");
   }

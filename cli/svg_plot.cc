@@ -180,6 +180,10 @@ void Plot::fit_y(double pad_fraction) {
   for (const auto& m : markers)
     if (std::isfinite(m.y) && x.contains(m.x)) lo = std::min(lo, m.y), hi = std::max(hi, m.y);
   if (!std::isfinite(lo)) lo = 0, hi = 1;
+  fit_y_range(lo, hi, pad_fraction);
+}
+
+void Plot::fit_y_range(double lo, double hi, double pad_fraction) {
   const double pad = (hi - lo) * pad_fraction;
   lo -= pad, hi += pad;
   if (y.tick_step > 0) {

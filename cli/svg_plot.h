@@ -98,6 +98,8 @@ class Plot {
   // y on a log axis is not supported (magnitudes are plotted in dB).
   void fit_x(bool log);
   void fit_y(double pad_fraction = 0.05);
+  // The same from a given data range (what must be seen); the rest breaks off at the frame.
+  void fit_y_range(double lo, double hi, double pad_fraction = 0.05);
   // Equal data-per-pixel on both axes around the given ranges (Nyquist).
   void equal_aspect();
   std::string render() const;
