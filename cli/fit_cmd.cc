@@ -147,14 +147,18 @@ void run_fit(const FitCommand& a) {
 
 }  // namespace
 
-void add_fit_options(CLI::App* c, FitArgs& a) {
+void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline) {
+  // a recording straight off the bench always carries some delay; a single
+  // `fit` keeps the plain default so a model is what the user asked for
+  if (pipeline) a.delay = "auto";
   c->add_option("--order", a.order, "Poles to fit besides integrators: N (1..200), or auto: the lowest order whose "
                 "residual is consistent with the measurement noise (chi-square test, 99 %), else the lowest Akaike "
                 "criterion (default auto)");
   c->add_option("--max-order", a.max_order, "Order sweep limit for --order auto (default 20)");
-  c->add_option("--delay", a.delay, "Pure delay in s, or auto: estimated from the phase slope and refined with the "
-                "fit (default 0)");
-  c->add_option("--band", a.band, "Fit only lines in LO:HI, Hz (default: all lines)");
+  c->add_option("--delay", a.delay, std::string("Pure delay in s, or auto: estimated from the phase slope and refined "
+                "with the fit (default ") + (pipeline ? "auto)" : "0)"));
+  c->add_option("--band", a.band, pipeline ? "Fit only lines in LO:HI, Hz (default: the trusted band, see the report)"
+                                           : "Fit only lines in LO:HI, Hz (default: all lines)");
   c->add_option("--integrators", a.integrators, "Poles fixed at the origin, e.g. 1 for voltage to position of a "
                 "motor (default 0)");
   c->add_option("--weighting", a.weighting, "variance (1/standard error from the FRF's rel_err, floored at a tenth "
@@ -174,7 +178,7 @@ void add_fit_command(CLI::App& app) {
              "1999, relaxed form of 2006); print poles and zeros as frequency and damping, and the fit quality.");
   c->add_option("frf", a->frf, "FRF CSV from 'benchid frf'")->required();
   c->add_option("-o,--out", a->out, "Model JSON to write (benchid.model/1)");
-  add_fit_options(c, a->fit);
+  add_fit_options(c, a->fit, false);
   c->add_option("--domain", a->domain, "s (continuous, default) or z: fit a discrete-time model directly, for a plant "
                 "measured through a digital controller (needs --sample-time)");
   c->add_option("--discretize", a->discretize, "Also make a discrete-time model for firmware: zoh (exact for a held "

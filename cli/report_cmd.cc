@@ -216,7 +216,7 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
 
 void add_report_options(CLI::App* c, ReportArgs& a) {
   add_frf_options(c, a.frf, true);
-  add_fit_options(c, a.fit);
+  add_fit_options(c, a.fit, true);
   add_loop_options(c, a.loop, true);
   c->add_option("--keep", a.keep_dir, "Folder for the FRF CSV, model JSON and loop JSON (default: beside the report, "
                 "named after it)");

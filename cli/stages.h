@@ -66,7 +66,8 @@ struct FitArgs {
   std::string method = "vf";
   bool strictly_proper = false, improper = false, allow_unstable = false;
 };
-void add_fit_options(CLI::App* c, FitArgs& a);
+// pipeline: `report`'s defaults (delay auto, the trusted band).
+void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline);
 fit::FitOptions fit_options(const FitArgs& a);
 // The "fit" object of the model JSON for a finished fit.
 fit::FitSummary fit_record(const fit::FrfFit& f, const std::string& source);
