@@ -115,16 +115,24 @@ std::vector<SvgPlot> plots_of(const std::string& html) {
 }
 
 // The points of a series' path, in data units, split into its sub-paths.
+// (Plain string search: a regex over a path of thousands of points recurses
+// too deep for a sanitizer build's stack.)
 std::vector<std::vector<std::pair<double, double>>> series_points(const SvgPlot& p, const std::string& name) {
-  const std::regex path("<path class=\"series\" data-series=\"" + name + "\"[^>]* d=\"([^\"]*)\"");
-  std::smatch m;
   std::vector<std::vector<std::pair<double, double>>> runs;
-  if (!std::regex_search(p.body, m, path)) return runs;
-  const std::string d = m[1];
-  const std::regex cmd(R"re(([ML])(-?[0-9.]+) (-?[0-9.]+))re");
-  for (std::sregex_iterator it(d.begin(), d.end(), cmd), end; it != end; ++it) {
-    if ((*it)[1] == "M") runs.emplace_back();
-    runs.back().emplace_back(p.x.from_px(std::stod((*it)[2])), p.y.from_px(std::stod((*it)[3])));
+  const std::size_t at = p.body.find("<path class=\"series\" data-series=\"" + name + "\"");
+  if (at == std::string::npos) return runs;
+  const std::size_t d0 = p.body.find(" d=\"", at) + 4, d1 = p.body.find('"', d0);
+  const std::string d = p.body.substr(d0, d1 - d0);
+  std::size_t i = 0;
+  while (i < d.size()) {
+    const char c = d[i++];
+    if (c != 'M' && c != 'L') continue;
+    char* end = nullptr;
+    const double px = std::strtod(d.c_str() + i, &end);
+    const double py = std::strtod(end, &end);
+    i = static_cast<std::size_t>(end - d.c_str());
+    if (c == 'M') runs.emplace_back();
+    runs.back().emplace_back(p.x.from_px(px), p.y.from_px(py));
   }
   return runs;
 }
