@@ -27,6 +27,7 @@ int main(int argc, char** argv) {
   benchid::cli::add_loop_command(app);
   benchid::cli::add_report_command(app, command_line);
   benchid::cli::add_demo_command(app);
+  benchid::cli::add_batch_command(app);
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

@@ -36,6 +36,11 @@ struct ReportTimes {
 constexpr double kTrustedRelErr = 0.2;  // phase s.d. about 11 deg
 Band trusted_band(const ident::Frf& f, double max_rel_err = kTrustedRelErr);
 
+// The fit stage of the pipeline: options o (from fit_options) in the trusted
+// band unless a.band is given; NoResult when there is no band or no
+// convergence. band_note (optional) says how the band was chosen.
+fit::FrfFit fit_pipeline(const ident::Frf& frf, const FitArgs& a, fit::FitOptions o, std::string* band_note = nullptr);
+
 // Runs frf -> fit -> replay -> loop, then writes all files. Throws InputError
 // (bad input; the stage named) or NoResult before anything is written.
 ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet);

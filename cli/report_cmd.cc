@@ -72,6 +72,27 @@ Band trusted_band(const ident::Frf& f, double max_rel_err) {
   return b;
 }
 
+fit::FrfFit fit_pipeline(const ident::Frf& frf, const FitArgs& a, fit::FitOptions o, std::string* band_note) {
+  std::string note = a.band.empty() ? "" : a.band + " Hz (given)";
+  if (a.band.empty()) {
+    const Band b = trusted_band(frf);
+    if (!(b.hi_hz > b.lo_hz))
+      throw NoResult("no band of trusted lines to fit (coherence under its bound or random error above " +
+                     fmt_num(100 * kTrustedRelErr) + " % almost everywhere); check the channels and the excitation");
+    o.band_lo_hz = b.lo_hz;
+    o.band_hi_hz = b.hi_hz;
+    note = fmt_num(b.lo_hz) + " to " + fmt_num(b.hi_hz) + " Hz, chosen: up to the last line below which 90 % of "
+           "lines (and 12 of the last 16) are above the coherence bound with a random error of at most " +
+           fmt_num(100 * kTrustedRelErr) + " % (--band to choose)";
+  }
+  fit::FrfFit f = fit::fit_frf(frf, o);
+  if (!f.result.converged)
+    throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
+                   " iterations; try a lower --order, a narrower --band or --weighting relative");
+  if (band_note) *band_note = note;
+  return f;
+}
+
 ReportPaths report_paths(const std::string& report, const std::string& keep_dir) {
   ReportPaths p;
   p.report = report;
@@ -113,26 +134,8 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   const ident::Frf frf = stage("frf", [&] { return compute_frf(a.frf); });
   lap(times.frf_s);
   // fit, in the trusted band unless a band was given
-  std::string band_note = a.fit.band.empty() ? "" : a.fit.band + " Hz (given)";
-  const fit::FrfFit ft = stage("fit", [&] {
-    fit::FitOptions o = fit_opts;
-    if (a.fit.band.empty()) {
-      const Band b = trusted_band(frf);
-      if (!(b.hi_hz > b.lo_hz))
-        throw NoResult("no band of trusted lines to fit (coherence under its bound or random error above " +
-                       fmt_num(100 * kTrustedRelErr) + " % almost everywhere); check the channels and the excitation");
-      o.band_lo_hz = b.lo_hz;
-      o.band_hi_hz = b.hi_hz;
-      band_note = fmt_num(b.lo_hz) + " to " + fmt_num(b.hi_hz) + " Hz, chosen: up to the last line below which 90 % of "
-                  "lines (and 12 of the last 16) are above the coherence bound with a random error of at most " +
-                  fmt_num(100 * kTrustedRelErr) + " % (--band to choose)";
-    }
-    fit::FrfFit f = fit::fit_frf(frf, o);
-    if (!f.result.converged)
-      throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
-                     " iterations; try a lower --order, a narrower --band or --weighting relative");
-    return f;
-  });
+  std::string band_note;
+  const fit::FrfFit ft = stage("fit", [&] { return fit_pipeline(frf, a.fit, fit_opts, &band_note); });
   const fit::FitSummary summary = fit_record(ft, paths.frf);
   lap(times.fit_s);
   // replay on the recording

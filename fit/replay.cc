@@ -1,3 +1,4 @@
+#include "ident/fftw_lock.h"
 #include "fit/replay.h"
 
 #include <Eigen/Dense>
@@ -82,20 +83,20 @@ std::vector<double> simulate_as_measured(const RationalModel& m, const std::vect
   std::vector<double> in(len, 0.0), out(len);
   std::copy(u.begin(), u.end(), in.begin());
   std::vector<std::complex<double>> spec(len / 2 + 1);
-  fftw_plan fwd = fftw_plan_dft_r2c_1d(static_cast<int>(len), in.data(), reinterpret_cast<fftw_complex*>(spec.data()),
+  fftw_plan fwd = locked_plan_dft_r2c_1d(static_cast<int>(len), in.data(), reinterpret_cast<fftw_complex*>(spec.data()),
                                        FFTW_ESTIMATE);
   fftw_execute(fwd);
-  fftw_destroy_plan(fwd);
+  locked_destroy_plan(fwd);
   for (std::size_t k = 0; k < spec.size(); ++k) {
     const double f = static_cast<double>(k) * rate_hz / static_cast<double>(len);
     cplx h = m.response(f);
     if (k == 0 || k == spec.size() - 1) h = h.real();  // a real signal's DC and Nyquist lines
     spec[k] *= h / static_cast<double>(len);
   }
-  fftw_plan inv = fftw_plan_dft_c2r_1d(static_cast<int>(len), reinterpret_cast<fftw_complex*>(spec.data()), out.data(),
+  fftw_plan inv = locked_plan_dft_c2r_1d(static_cast<int>(len), reinterpret_cast<fftw_complex*>(spec.data()), out.data(),
                                        FFTW_ESTIMATE);
   fftw_execute(inv);
-  fftw_destroy_plan(inv);
+  locked_destroy_plan(inv);
   out.resize(u.size());
   return out;
 }

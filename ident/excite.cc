@@ -1,3 +1,4 @@
+#include "ident/fftw_lock.h"
 #include "ident/excite.h"
 
 #include <fftw3.h>
@@ -158,20 +159,20 @@ std::vector<double> synthesize(std::size_t period, const std::vector<std::size_t
   std::vector<std::complex<double>> spec(period / 2 + 1);
   for (std::size_t i = 0; i < lines.size(); ++i) spec[lines[i]] = 0.5 * coef[i];
   std::vector<double> x(period);
-  fftw_plan p = fftw_plan_dft_c2r_1d(static_cast<int>(period), reinterpret_cast<fftw_complex*>(spec.data()),
+  fftw_plan p = locked_plan_dft_c2r_1d(static_cast<int>(period), reinterpret_cast<fftw_complex*>(spec.data()),
                                      x.data(), FFTW_ESTIMATE);
   fftw_execute(p);
-  fftw_destroy_plan(p);
+  locked_destroy_plan(p);
   return x;
 }
 
 std::vector<std::complex<double>> analyse(const std::vector<double>& x, const std::vector<std::size_t>& lines) {
   std::vector<double> in(x);
   std::vector<std::complex<double>> spec(x.size() / 2 + 1);
-  fftw_plan p = fftw_plan_dft_r2c_1d(static_cast<int>(x.size()), in.data(),
+  fftw_plan p = locked_plan_dft_r2c_1d(static_cast<int>(x.size()), in.data(),
                                      reinterpret_cast<fftw_complex*>(spec.data()), FFTW_ESTIMATE);
   fftw_execute(p);
-  fftw_destroy_plan(p);
+  locked_destroy_plan(p);
   std::vector<std::complex<double>> c(lines.size());
   for (std::size_t i = 0; i < lines.size(); ++i) c[i] = spec[lines[i]];
   return c;

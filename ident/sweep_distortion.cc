@@ -1,3 +1,4 @@
+#include "ident/fftw_lock.h"
 #include "ident/sweep_distortion.h"
 
 #include <fftw3.h>
@@ -17,19 +18,19 @@ cvec forward(const std::vector<double>& x, std::size_t len) {
   std::vector<double> in(len, 0.0);
   std::copy(x.begin(), x.begin() + static_cast<std::ptrdiff_t>(std::min(len, x.size())), in.begin());
   cvec out(len / 2 + 1);
-  fftw_plan p = fftw_plan_dft_r2c_1d(static_cast<int>(len), in.data(), reinterpret_cast<fftw_complex*>(out.data()),
+  fftw_plan p = locked_plan_dft_r2c_1d(static_cast<int>(len), in.data(), reinterpret_cast<fftw_complex*>(out.data()),
                                      FFTW_ESTIMATE);
   fftw_execute(p);
-  fftw_destroy_plan(p);
+  locked_destroy_plan(p);
   return out;
 }
 
 std::vector<double> inverse(cvec spec, std::size_t len) {
   std::vector<double> out(len);
-  fftw_plan p = fftw_plan_dft_c2r_1d(static_cast<int>(len), reinterpret_cast<fftw_complex*>(spec.data()), out.data(),
+  fftw_plan p = locked_plan_dft_c2r_1d(static_cast<int>(len), reinterpret_cast<fftw_complex*>(spec.data()), out.data(),
                                      FFTW_ESTIMATE);
   fftw_execute(p);
-  fftw_destroy_plan(p);
+  locked_destroy_plan(p);
   for (double& v : out) v /= static_cast<double>(len);
   return out;
 }

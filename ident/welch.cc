@@ -1,3 +1,4 @@
+#include "ident/fftw_lock.h"
 #include "ident/welch.h"
 
 #include <fftw3.h>
@@ -65,10 +66,10 @@ struct WelchAccumulator::Fft {
   explicit Fft(std::size_t n, std::size_t channels) : n(n) {
     in = fftw_alloc_real(n);
     for (std::size_t c = 0; c < channels; ++c) out.push_back(fftw_alloc_complex(n / 2 + 1));
-    plan = fftw_plan_dft_r2c_1d(static_cast<int>(n), in, out[0], FFTW_ESTIMATE);
+    plan = locked_plan_dft_r2c_1d(static_cast<int>(n), in, out[0], FFTW_ESTIMATE);
   }
   ~Fft() {
-    fftw_destroy_plan(plan);
+    locked_destroy_plan(plan);
     fftw_free(in);
     for (auto* o : out) fftw_free(o);
   }
@@ -172,10 +173,10 @@ struct PeriodicAccumulator::Fft {
   explicit Fft(std::size_t n) {
     in = fftw_alloc_real(n);
     out = fftw_alloc_complex(n / 2 + 1);
-    plan = fftw_plan_dft_r2c_1d(static_cast<int>(n), in, out, FFTW_ESTIMATE);
+    plan = locked_plan_dft_r2c_1d(static_cast<int>(n), in, out, FFTW_ESTIMATE);
   }
   ~Fft() {
-    fftw_destroy_plan(plan);
+    locked_destroy_plan(plan);
     fftw_free(in);
     fftw_free(out);
   }

@@ -1,3 +1,4 @@
+#include "ident/fftw_lock.h"
 #include "loop/step.h"
 
 #include <fftw3.h>
@@ -16,10 +17,10 @@ std::vector<double> step_of(const std::function<cplx(double)>& h_of_f, std::size
   for (std::size_t k = 0; k < spec.size(); ++k) spec[k] = h_of_f(static_cast<double>(k) * fs / static_cast<double>(n));
   spec.back() = spec.back().real();
   std::vector<double> imp(n);
-  fftw_plan p = fftw_plan_dft_c2r_1d(static_cast<int>(n), reinterpret_cast<fftw_complex*>(spec.data()), imp.data(),
+  fftw_plan p = locked_plan_dft_c2r_1d(static_cast<int>(n), reinterpret_cast<fftw_complex*>(spec.data()), imp.data(),
                                      FFTW_ESTIMATE);
   fftw_execute(p);
-  fftw_destroy_plan(p);
+  locked_destroy_plan(p);
   std::vector<double> y(n);
   double acc = 0;
   for (std::size_t i = 0; i < n; ++i) {

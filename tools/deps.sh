@@ -2,10 +2,11 @@
 # Installs benchid's build and test dependencies from Debian's packages,
 # only those missing (dpkg -s), so a machine that has them is left alone.
 # With --test also what only the tests use: Chromium, which renders the HTML
-# report headless (and a font for it).
+# report headless (and a font for it), and GNU parallel, which runs the
+# `benchid batch` shards in the fleet test.
 set -euo pipefail
 pkgs=(g++ make cmake pkg-config libeigen3-dev libfftw3-dev libsndfile1-dev libcli11-dev libgtest-dev nlohmann-json3-dev)
-if [ "${1:-}" = "--test" ]; then pkgs+=(chromium fonts-dejavu-core); fi
+if [ "${1:-}" = "--test" ]; then pkgs+=(chromium fonts-dejavu-core parallel); fi
 missing=()
 for p in "${pkgs[@]}"; do
   dpkg -s "$p" >/dev/null 2>&1 || missing+=("$p")

@@ -1,0 +1,427 @@
+// benchid batch MANIFEST.csv -o RESULTS.jsonl [--jobs N] [--shard I/N] [--resume] [--limits FILE.json]
+//
+// Fleet mode for production test: one unit per manifest row goes through the
+// pipeline (frf, fit in the trusted band, loop when a controller is given)
+// and gets one JSON line with its key figures and pass/fail against limits.
+// A unit that fails (bad file, no fit) gets a line with its error and the
+// batch goes on. Lines are appended and flushed as units finish, so an
+// interrupted run keeps what it did and --resume carries on from there; a
+// run that completes rewrites the file in manifest order.
+//
+// Exit status: 0 every unit passed; 3 a unit failed its limits; 1 a unit
+// could not be analysed; 2 bad usage or a bad manifest (nothing is run).
+#include <algorithm>
+#include <atomic>
+#include <cmath>
+#include <cstdio>
+#include <filesystem>
+#include <fstream>
+#include <iostream>
+#include <map>
+#include <memory>
+#include <mutex>
+#include <set>
+#include <sstream>
+#include <thread>
+
+#include <nlohmann/json.hpp>
+
+#include "cli/commands.h"
+#include "cli/output.h"
+#include "cli/parse.h"
+#include "cli/report.h"
+#include "cli/stages.h"
+#include "fit/model.h"
+#include "ident/error.h"
+#include "ident/json_file.h"
+#include "loop/controller.h"
+
+namespace benchid::cli {
+
+namespace fs = std::filesystem;
+using ojson = nlohmann::ordered_json;
+
+namespace {
+
+struct BatchArgs {
+  std::string manifest, out, shard, limits;
+  unsigned jobs = 1;
+  bool resume = false, quiet = false;
+};
+
+// Manifest columns (header row required; empty cell = not used / default).
+const std::vector<std::string> kRequired{"unit", "record", "input", "output"};
+const std::vector<std::string> kSettings{"reference", "excitation", "rate", "controller", "order", "delay", "band",
+                                         "integrators"};
+// Limits: a manifest cell, else the --limits file, else none (the loop's
+// three have the `loop` command's defaults when a controller is given).
+const std::vector<std::string> kLimits{"pm_min",         "gm_min",           "ms_max_db",        "dc_gain_min",
+                                       "dc_gain_max",    "resonance_hz_min", "resonance_hz_max", "nrmse_max"};
+const std::map<std::string, double> kLoopDefaults{{"pm_min", 45}, {"gm_min", 10}, {"ms_max_db", 6}};
+
+struct Unit {
+  std::size_t line = 0;  // in the manifest
+  std::map<std::string, std::string> cell;
+  std::map<std::string, double> limit;
+};
+
+// One CSV record: fields separated by commas, optionally in double quotes
+// ("" inside quotes is a quote).
+std::vector<std::string> csv_fields(const std::string& line, const std::string& where) {
+  std::vector<std::string> f(1);
+  bool quoted = false;
+  for (std::size_t i = 0; i < line.size(); ++i) {
+    const char c = line[i];
+    if (quoted) {
+      if (c == '"' && i + 1 < line.size() && line[i + 1] == '"') f.back() += '"', ++i;
+      else if (c == '"') quoted = false;
+      else f.back() += c;
+    } else if (c == '"') {
+      quoted = true;
+    } else if (c == ',') {
+      f.emplace_back();
+    } else if (c != '\r') {
+      f.back() += c;
+    }
+  }
+  if (quoted) throw InputError(where + ": a quote is not closed; expected \"...\"");
+  for (auto& s : f) {  // trim spaces
+    const auto b = s.find_first_not_of(" \t"), e = s.find_last_not_of(" \t");
+    s = b == std::string::npos ? "" : s.substr(b, e - b + 1);
+  }
+  return f;
+}
+
+std::vector<Unit> read_manifest(const std::string& path, const std::map<std::string, double>& file_limits) {
+  std::ifstream in(path, std::ios::binary);
+  if (!in) throw InputError(path + ": cannot open the manifest");
+  std::string line;
+  std::vector<std::string> header;
+  std::size_t n = 0;
+  std::vector<Unit> units;
+  std::set<std::string> ids;
+  const fs::path base = fs::path(path).parent_path();
+  while (std::getline(in, line)) {
+    ++n;
+    const std::string where = path + ":" + std::to_string(n);
+    if (line.empty() || line[0] == '#' || line.find_first_not_of(" \t\r,") == std::string::npos) continue;
+    std::vector<std::string> f = csv_fields(line, where);
+    if (header.empty()) {
+      header = f;
+      for (const auto& h : header) {
+        const bool known = std::count(kRequired.begin(), kRequired.end(), h) ||
+                           std::count(kSettings.begin(), kSettings.end(), h) || std::count(kLimits.begin(), kLimits.end(), h);
+        if (!known)
+          throw InputError(where + ": column '" + h + "' is unknown; expected unit, record, input, output, reference, "
+                           "excitation, rate, controller, order, delay, band, integrators or a limit (pm_min, gm_min, "
+                           "ms_max_db, dc_gain_min, dc_gain_max, resonance_hz_min, resonance_hz_max, nrmse_max)");
+        if (std::count(header.begin(), header.end(), h) > 1) throw InputError(where + ": column '" + h + "' appears twice");
+      }
+      for (const auto& r : kRequired)
+        if (!std::count(header.begin(), header.end(), r))
+          throw InputError(where + ": no column '" + r + "'; expected a header with unit, record, input and output");
+      continue;
+    }
+    if (f.size() != header.size())
+      throw InputError(where + ": " + std::to_string(f.size()) + " fields; expected " + std::to_string(header.size()) +
+                       " as in the header");
+    Unit u;
+    u.line = n;
+    for (std::size_t i = 0; i < f.size(); ++i) u.cell[header[i]] = f[i];
+    for (const auto& r : kRequired)
+      if (u.cell[r].empty()) throw InputError(where + ": '" + r + "' is empty; expected a value");
+    if (!ids.insert(u.cell["unit"]).second) throw InputError(where + ": unit '" + u.cell["unit"] + "' appears twice");
+    for (const char* p : {"record", "excitation"})
+      if (!u.cell[p].empty() && fs::path(u.cell[p]).is_relative()) u.cell[p] = (base / u.cell[p]).string();
+    u.limit = file_limits;
+    for (const auto& l : kLimits)
+      if (!u.cell[l].empty()) u.limit[l] = parse_number(u.cell[l], where + ": " + l);
+    const bool loop = !u.cell["controller"].empty();
+    for (const auto& [l, v] : kLoopDefaults) {
+      if (u.limit.count(l) && !loop)
+        throw InputError(where + ": limit " + l + " needs a controller; expected a 'controller' value for unit '" +
+                         u.cell["unit"] + "'");
+      if (loop && !u.limit.count(l)) u.limit[l] = v;
+    }
+    if (loop) {
+      try {
+        u.cell["controller"] = controller_spec(u.cell["controller"]);
+        loop::parse_controller(u.cell["controller"]);
+      } catch (const InputError& e) {
+        throw InputError(where + ": controller: " + e.what());
+      }
+    }
+    units.push_back(std::move(u));
+  }
+  if (header.empty()) throw InputError(path + ": empty; expected a header row and one row per unit");
+  return units;
+}
+
+std::map<std::string, double> read_limits(const std::string& path) {
+  std::map<std::string, double> out;
+  if (path.empty()) return out;
+  const nlohmann::json j = read_json_file(path, "a limits file (JSON object of limit: value)");
+  if (!j.is_object()) throw InputError(path + ": expected a JSON object of limit: value");
+  for (const auto& [k, v] : j.items()) {
+    if (!std::count(kLimits.begin(), kLimits.end(), k))
+      throw InputError(path + ": limit '" + k + "' is unknown; expected one of pm_min, gm_min, ms_max_db, dc_gain_min, "
+                       "dc_gain_max, resonance_hz_min, resonance_hz_max, nrmse_max");
+    if (!v.is_number()) throw InputError(path + ": limit '" + k + "' is not a number");
+    out[k] = v.get<double>();
+  }
+  return out;
+}
+
+ojson number(double v) { return std::isfinite(v) ? ojson(v) : ojson(nullptr); }
+
+// The pipeline on one unit; throws on bad input or no result.
+ojson analyse(const Unit& u, ojson& line, bool& pass) {
+  const auto& c = u.cell;
+  const auto get = [&](const std::string& k) {
+    const auto it = c.find(k);
+    return it == c.end() ? std::string() : it->second;
+  };
+  FrfArgs fa;
+  fa.record = get("record");
+  fa.input = get("input");
+  fa.output = get("output");
+  fa.reference = get("reference");
+  fa.excitation = get("excitation");
+  if (!get("rate").empty()) fa.rate_hz = parse_number(get("rate"), "rate");
+  FitArgs fit_args;
+  fit_args.delay = "auto";
+  if (!get("order").empty()) fit_args.order = get("order");
+  if (!get("delay").empty()) fit_args.delay = get("delay");
+  if (!get("band").empty()) fit_args.band = get("band");
+  if (!get("integrators").empty()) fit_args.integrators = static_cast<int>(parse_number(get("integrators"), "integrators"));
+  const fit::FitOptions fo = fit_options(fit_args);
+  const ident::Frf frf = compute_frf(fa);
+  const fit::FrfFit ft = fit_pipeline(frf, fit_args, fo);
+  const fit::RationalModel& m = ft.result.model;
+  ojson fit;
+  fit["order"] = m.order();
+  fit["band_hz"] = {ft.data.freq_hz.front(), ft.data.freq_hz.back()};
+  fit["nrmse"] = ft.result.nrmse;
+  fit["max_err_db"] = ft.result.max_err_db;
+  fit["max_err_deg"] = ft.result.max_err_deg;
+  fit["delay_s"] = m.delay_s;
+  line["fit"] = fit;
+  line["dc_gain"] = number(m.dc_gain());
+  ojson res = ojson::array();
+  double first_res = std::numeric_limits<double>::quiet_NaN();
+  std::vector<std::pair<double, double>> modes;
+  for (const fit::cplx& p : m.zpk().poles) {
+    const fit::cplx s = m.domain == fit::Domain::z ? std::log(p) / m.sample_time_s : p;
+    if (s.imag() <= 0) continue;
+    const fit::Mode md = fit::mode_of(s);
+    // a resonance: a complex pair under critical damping/sqrt(2) that peaks in the fitted band
+    if (md.damping < 0.7 && md.freq_hz >= ft.data.freq_hz.front() && md.freq_hz <= ft.data.freq_hz.back())
+      modes.emplace_back(md.freq_hz, md.damping);
+  }
+  std::sort(modes.begin(), modes.end());
+  for (const auto& [f, z] : modes) res.push_back({{"freq_hz", f}, {"damping", z}});
+  if (!modes.empty()) first_res = modes.front().first;
+  line["resonances"] = res;
+  ojson checks = ojson::array();
+  const auto check = [&](const std::string& name, double limit, double value, bool ok) {
+    checks.push_back({{"name", name}, {"limit", limit}, {"value", number(value)}, {"pass", ok}});
+    pass = pass && ok;
+  };
+  const auto lim = [&](const char* k, double& v) {
+    const auto it = u.limit.find(k);
+    if (it == u.limit.end()) return false;
+    v = it->second;
+    return true;
+  };
+  double v = 0;
+  const double dc = m.dc_gain();
+  if (lim("dc_gain_min", v)) check("dc_gain >=", v, dc, dc >= v);
+  if (lim("dc_gain_max", v)) check("dc_gain <=", v, dc, dc <= v);
+  if (lim("resonance_hz_min", v)) check("first resonance_hz >=", v, first_res, first_res >= v);
+  if (lim("resonance_hz_max", v)) check("first resonance_hz <=", v, first_res, first_res <= v);
+  if (lim("nrmse_max", v)) check("nrmse <=", v, ft.result.nrmse, ft.result.nrmse <= v);
+  if (!get("controller").empty()) {
+    LoopArgs la;
+    la.controller = get("controller");
+    la.pm_min = u.limit.at("pm_min");
+    la.gm_min = u.limit.at("gm_min");
+    la.ms_max_db = u.limit.at("ms_max_db");
+    la.draws = 0;  // the batch reports the figures; spreads are for the single-unit report
+    const LoopAnalysis a = analyse_loop(la, get("unit"), &m, nullptr, ft.data.freq_hz.front(), ft.data.freq_hz.back());
+    ojson lp;
+    lp["controller"] = la.controller;
+    lp["phase_margin_deg"] = number(a.m.phase_margin_deg);
+    lp["crossover_hz"] = number(a.m.crossover_hz);
+    lp["gain_margin_db"] = number(a.m.gain_margin_db);
+    lp["gain_margin_hz"] = number(a.m.gain_margin_hz);
+    lp["delay_margin_s"] = number(a.m.delay_margin_s);
+    lp["peak_sensitivity_db"] = number(20 * std::log10(a.m.ms));
+    lp["bandwidth_hz"] = number(a.m.bandwidth_hz);
+    lp["closed_loop_stable"] = a.st.judged ? ojson(a.st.stable) : ojson(nullptr);
+    line["loop"] = lp;
+    for (const auto& k : a.checks) check(k.name, k.threshold, k.value, k.pass);
+    const bool stable = a.st.judged && a.st.stable;
+    checks.push_back({{"name", "closed loop stable"}, {"limit", nullptr}, {"value", lp["closed_loop_stable"]}, {"pass", stable}});
+    pass = pass && stable;
+  }
+  return checks;
+}
+
+ojson run_unit(const Unit& u) {
+  ojson line;
+  line["unit"] = u.cell.at("unit");
+  line["record"] = u.cell.at("record");
+  bool pass = true;
+  try {
+    ojson body;
+    const ojson checks = analyse(u, body, pass);
+    line["status"] = pass ? "pass" : "fail";
+    for (auto& [k, v] : body.items()) line[k] = v;
+    line["checks"] = checks;
+  } catch (const std::exception& e) {  // InputError, NoResult, and anything else a unit throws
+    line["status"] = "error";
+    line["error"] = e.what();
+  }
+  return line;
+}
+
+struct Shard {
+  std::size_t index = 0, count = 1;
+};
+
+Shard parse_shard(const std::string& s) {
+  Shard sh;
+  const auto slash = s.find('/');
+  if (slash == std::string::npos) throw InputError("--shard " + s + ": expected I/N, e.g. 0/4 (I from 0 to N-1)");
+  const double i = parse_number(s.substr(0, slash), "--shard index"), n = parse_number(s.substr(slash + 1), "--shard count");
+  if (n < 1 || n != std::floor(n) || i < 0 || i != std::floor(i) || i >= n)
+    throw InputError("--shard " + s + ": expected I/N with whole numbers, N >= 1 and 0 <= I < N");
+  sh.index = static_cast<std::size_t>(i);
+  sh.count = static_cast<std::size_t>(n);
+  return sh;
+}
+
+// Unit ids already in a results file (complete lines only) and those lines.
+std::map<std::string, std::string> done_units(const std::string& path) {
+  std::map<std::string, std::string> done;
+  std::ifstream in(path, std::ios::binary);
+  std::string all((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+  std::size_t start = 0;
+  while (true) {
+    const std::size_t nl = all.find('\n', start);
+    if (nl == std::string::npos) break;  // a last line without its newline was cut off: run that unit again
+    const std::string line = all.substr(start, nl - start);
+    start = nl + 1;
+    try {
+      const nlohmann::json j = nlohmann::json::parse(line);
+      if (j.contains("unit") && j["unit"].is_string()) done[j["unit"].get<std::string>()] = line;
+    } catch (const nlohmann::json::exception&) {
+      throw InputError(path + ": a line is not JSON; expected a results file written by 'benchid batch'");
+    }
+  }
+  return done;
+}
+
+int run_batch(const BatchArgs& a) {
+  if (a.out.empty()) throw InputError("no results file; expected -o RESULTS.jsonl");
+  if (a.jobs < 1 || a.jobs > 256) throw InputError("--jobs " + std::to_string(a.jobs) + ": expected 1 to 256");
+  const Shard shard = a.shard.empty() ? Shard{} : parse_shard(a.shard);
+  const std::vector<Unit> all = read_manifest(a.manifest, read_limits(a.limits));
+  std::vector<std::string> inputs{a.manifest};
+  if (!a.limits.empty()) inputs.push_back(a.limits);
+  for (const Unit& u : all) inputs.push_back(u.cell.at("record"));
+  refuse_overwriting_input(a.out, inputs);
+  std::map<std::string, std::string> done;
+  if (fs::exists(a.out)) {
+    if (!a.resume)
+      throw InputError(a.out + ": exists; expected a new results file, or --resume to carry on with this one");
+    done = done_units(a.out);
+  }
+  std::vector<const Unit*> todo, mine;
+  for (std::size_t i = shard.index; i < all.size(); i += shard.count) {
+    mine.push_back(&all[i]);
+    if (!done.count(all[i].cell.at("unit"))) todo.push_back(&all[i]);
+  }
+  // append as units finish: an interrupted run keeps every finished unit
+  {  // drop a cut-off last line before appending
+    std::string keep;
+    for (const Unit* u : mine)
+      if (done.count(u->cell.at("unit"))) keep += done[u->cell.at("unit")] + "\n";
+    for (const auto& [id, line] : done)
+      if (std::none_of(mine.begin(), mine.end(), [&](const Unit* u) { return u->cell.at("unit") == id; }))
+        keep += line + "\n";  // lines of units not in this shard are kept as they are
+    if (!done.empty()) write_file_atomically(a.out, keep);
+  }
+  std::ofstream out(a.out, std::ios::binary | std::ios::app);
+  if (!out) throw InputError(a.out + ": cannot write");
+  std::mutex m;
+  std::map<std::string, std::string> results = done;
+  std::atomic<std::size_t> next{0};
+  std::size_t finished = 0;
+  const auto worker = [&] {
+    for (std::size_t k = next++; k < todo.size(); k = next++) {
+      const std::string line = run_unit(*todo[k]).dump();
+      const std::lock_guard<std::mutex> lock(m);
+      out << line << '\n';
+      out.flush();
+      results[todo[k]->cell.at("unit")] = line;
+      ++finished;
+      if (!a.quiet)
+        std::cerr << "\rbenchid batch: " << finished << "/" << todo.size() << " units" << std::flush;
+    }
+  };
+  std::vector<std::thread> pool;
+  const unsigned n_threads = std::min<unsigned>(a.jobs, static_cast<unsigned>(std::max<std::size_t>(1, todo.size())));
+  for (unsigned t = 1; t < n_threads; ++t) pool.emplace_back(worker);
+  worker();
+  for (auto& t : pool) t.join();
+  out.close();
+  if (!a.quiet && !todo.empty()) std::cerr << "\n";
+  // complete: rewrite in manifest order
+  std::string sorted;
+  std::size_t pass = 0, fail = 0, error = 0;
+  for (const Unit* u : mine) {
+    const std::string& line = results.at(u->cell.at("unit"));
+    sorted += line + "\n";
+    const std::string status = nlohmann::json::parse(line).value("status", "");
+    pass += status == "pass", fail += status == "fail", error += status == "error";
+  }
+  for (const auto& [id, line] : done)
+    if (std::none_of(mine.begin(), mine.end(), [&](const Unit* u) { return u->cell.at("unit") == id; })) sorted += line + "\n";
+  write_file_atomically(a.out, sorted);
+  if (!a.quiet)
+    std::cout << "benchid batch: " << mine.size() << " units" << (shard.count > 1 ? " in shard " + a.shard : "") << " ("
+              << todo.size() << " run now, " << mine.size() - todo.size() << " already done): " << pass << " pass, "
+              << fail << " fail, " << error << " error; wrote " << a.out << "\n";
+  return error ? 1 : fail ? 3 : 0;
+}
+
+}  // namespace
+
+void add_batch_command(CLI::App& app) {
+  auto a = std::make_shared<BatchArgs>();
+  CLI::App* c = app.add_subcommand(
+      "batch", "Fleet mode: run every unit of a manifest through frf, fit and (with a controller) loop, and write "
+               "one JSON line per unit with its key figures and pass/fail against limits. A unit that fails gets a "
+               "line with its error; the batch goes on. Exit status 0 all pass, 3 a unit failed a limit, 1 a unit "
+               "could not be analysed, 2 bad manifest.");
+  c->add_option("manifest", a->manifest, "CSV, one unit per row; columns unit, record (relative to the manifest's "
+                "folder), input, output, and optionally reference, excitation, rate, controller, order, delay, band, "
+                "integrators, and the limits pm_min, gm_min, ms_max_db, dc_gain_min, dc_gain_max, resonance_hz_min, "
+                "resonance_hz_max, nrmse_max (an empty cell: not used)")->required();
+  c->add_option("-o,--out", a->out, "Results, JSON lines (one per unit, manifest order)")->required();
+  c->add_option("--jobs", a->jobs, "Units analysed at once on this machine (default 1)");
+  c->add_option("--shard", a->shard, "I/N: only every N-th unit starting at the I-th (I from 0), for a job array "
+                "spread over machines; merge the shards' files with cat and sort (default: all units)");
+  c->add_flag("--resume", a->resume, "Carry on with an existing results file: units already in it are skipped");
+  c->add_option("--limits", a->limits, "JSON object of default limits, e.g. {\"pm_min\": 50, \"dc_gain_min\": 35} "
+                "(a manifest cell overrides; default: none, and for a unit with a controller pm_min 45, gm_min 10, "
+                "ms_max_db 6)");
+  c->add_flag("-q,--quiet", a->quiet, "No progress or summary");
+  c->callback([a] {
+    const int code = run_batch(*a);
+    if (code != 0) std::exit(code);
+  });
+}
+
+}  // namespace benchid::cli
