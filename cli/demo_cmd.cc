@@ -40,7 +40,15 @@ ReportArgs demo_args(const DemoScenario& s, const std::string& data_dir) {
   a.frf.output = s.output;
   a.frf.reference = s.reference;
   if (!s.excitation.empty()) a.frf.excitation = (d / s.excitation).string();
-  a.frf.command_line = "benchid demo (scenario " + s.name + ")";
+  // the equivalent single command, so the report says how to make it again
+  std::string cmd = "benchid report " + a.frf.record + " --input " + s.input + " --output " + s.output;
+  if (!s.reference.empty()) cmd += " --reference " + s.reference;
+  if (!s.excitation.empty()) cmd += " --excitation " + a.frf.excitation;
+  if (s.fit_order != "auto") cmd += " --order " + s.fit_order;
+  if (s.fit_delay != "auto") cmd += " --delay " + s.fit_delay;
+  if (!s.fit_band.empty()) cmd += " --band " + s.fit_band;
+  if (!s.controller.empty()) cmd += " --controller " + s.controller;
+  a.frf.command_line = cmd + " -o " + s.name + ".html   (run by benchid demo)";
   a.fit.order = s.fit_order;
   a.fit.delay = s.fit_delay;
   a.fit.band = s.fit_band;
