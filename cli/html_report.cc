@@ -4,6 +4,7 @@
 #include <cmath>
 #include <complex>
 #include <cstdio>
+#include <functional>
 #include <limits>
 #include <numbers>
 #include <sstream>
@@ -64,7 +65,7 @@ h2{font-size:1.2em;margin:1.4em 0 .4em;padding-bottom:.15em;border-bottom:2px so
 .sub{color:var(--muted);margin:0 0 .8em}
 table{border-collapse:collapse;margin:.4em 0 .8em;font-size:.93em;max-width:100%}
 th,td{border:1px solid var(--rule);padding:3px 8px;text-align:left;vertical-align:top;overflow-wrap:anywhere}
-td:first-child,th:first-child{overflow-wrap:normal}
+td:first-child,th{overflow-wrap:normal}
 th{background:#eef2f5}
 td.n{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 .caution{border:2px solid #000;background:#fff7d6;padding:8px 12px;margin:.8em 0}
@@ -361,27 +362,49 @@ std::string html_report(const ReportData& d) {
     const std::vector<double>& y = *d.y_measured;
     o << "<h2>Time-domain check (replay)</h2>\n";
     const std::size_t n = y.size();
+    // a window of about 10 periods of the fitted band's middle frequency (its
+    // geometric mean), at least 400 samples, from the middle of the scored part
+    const double f_mid = std::sqrt(ft.data.freq_hz.front() * ft.data.freq_hz.back());
+    const std::size_t want = std::max<std::size_t>(400, static_cast<std::size_t>(10 / f_mid * d.rate_hz));
     const std::size_t start0 = std::min(n, r.settle + (n - std::min(n, r.settle)) / 2);
-    const std::size_t len = std::min<std::size_t>(n - start0, 1200);
-    std::vector<double> t, ym, ys, yr;
-    for (std::size_t k = start0; k < start0 + len; ++k) {
-      t.push_back(static_cast<double>(k) / d.rate_hz);
-      ym.push_back(y[k]);
-      ys.push_back(r.simulated[k]);
-      yr.push_back(y[k] - r.simulated[k]);
-    }
+    const std::size_t len = std::min(n - start0, want);
+    // at most about 1600 points a curve: beyond that, each bucket of samples
+    // gives its smallest and largest value in time order (the envelope stays)
+    const std::size_t bucket = std::max<std::size_t>(1, len / 800);
+    std::vector<double> t, ym, ys, yr, tm, ts, tr;
+    const auto take = [&](const std::function<double(std::size_t)>& v, std::vector<double>& tt, std::vector<double>& out) {
+      for (std::size_t k = start0; k < start0 + len; k += bucket) {
+        const std::size_t e = std::min(start0 + len, k + bucket);
+        std::size_t lo = k, hi = k;
+        for (std::size_t j = k; j < e; ++j) {
+          if (v(j) < v(lo)) lo = j;
+          if (v(j) > v(hi)) hi = j;
+        }
+        for (std::size_t j : {std::min(lo, hi), std::max(lo, hi)}) {
+          if (bucket == 1 && j != k) continue;
+          tt.push_back(static_cast<double>(j) / d.rate_hz);
+          out.push_back(v(j));
+        }
+      }
+    };
+    take([&](std::size_t j) { return y[j]; }, tm, ym);
+    take([&](std::size_t j) { return r.simulated[j]; }, ts, ys);
+    take([&](std::size_t j) { return y[j] - r.simulated[j]; }, tr, yr);
+    t = tm;
     if (len >= 2) {
       svg::Plot p("Measured and simulated output");
-      p.series.push_back({"measured", t, ym, svg::blue, 1.3});
-      p.series.push_back({"simulated", t, ys, svg::vermillion, 1.5, true});
-      p.series.push_back({"residual", t, yr, svg::green, 1.0});
+      p.series.push_back({"measured", tm, ym, svg::blue, 1.3});
+      p.series.push_back({"simulated", ts, ys, svg::vermillion, 1.5, true});
+      p.series.push_back({"residual", tr, yr, svg::green, 1.0});
       p.x.label = "time (s)";
       p.x.lo = t.front(), p.x.hi = t.back();
       p.y.label = d.frf->output + " (" + ou + ")";
       p.fit_y();
       o << figure(p, "A window of " + fmt("%.4g", static_cast<double>(len) / d.rate_hz) +
-                         " s from the middle of the record: the recorded input run through the model (delay exact) "
-                         "against the recorded output.");
+                         " s from the middle of the record (about ten periods of the fitted band's middle "
+                         "frequency): the recorded input run through the model (delay exact) against the recorded "
+                         "output" + (bucket > 1 ? "; each curve drawn as the smallest and largest sample of every " +
+                                                      std::to_string(bucket) + " samples" : std::string()) + ".");
     }
     o << "<table><tr><th>check</th><th>value</th><th>rule</th><th>result</th></tr>\n"
       << "<tr><td>match % = 100 (1 &minus; ||y &minus; y&#770;|| / ||y &minus; mean y||)</td><td class=\"n\">"

@@ -1,6 +1,7 @@
 #include "cli/svg_plot.h"
 
 #include <algorithm>
+#include <atomic>
 #include <cmath>
 #include <cstdio>
 #include <limits>
@@ -46,6 +47,23 @@ double nice_step(double span, int target) {
   for (double m : {1.0, 2.0, 5.0, 10.0})
     if (m * p >= raw * (1 - 1e-9)) return m * p;
   return 10 * p;
+}
+
+// A linear tick's label: as many decimals as the step needs (2.125, 2.130 for
+// a step of 0.005), SI prefixes beyond 1000 and below 0.001.
+std::string tick_label(double v, double step) {
+  const double a = std::fabs(v);
+  if (v == 0) return "0";
+  if (a >= 1000 || a < 1e-3) return si_format(v);
+  int decimals = 0;  // enough that every multiple of the step prints exactly (0.25 -> 2, 0.005 -> 3)
+  while (decimals < 6) {
+    const double scaled = step * std::pow(10.0, decimals);
+    if (std::fabs(scaled - std::round(scaled)) < 1e-6 * scaled) break;
+    ++decimals;
+  }
+  char b[32];
+  std::snprintf(b, sizeof b, "%.*f", decimals, v);
+  return b;
 }
 
 }  // namespace
@@ -218,28 +236,30 @@ std::string Plot::render() const {
   o << "<rect class=\"frame\" x=\"" << num(left) << "\" y=\"" << num(top) << "\" width=\"" << num(right - left)
     << "\" height=\"" << num(bottom - top) << "\"/>\n";
   // grid and tick labels
-  const auto vgrid = [&](double v, bool major, bool label) {
+  const auto vgrid = [&](double v, bool major, const std::string& text) {
     const double p = x.to_px(v);
     o << "<line class=\"" << (major ? "grid" : "grid minor") << "\" x1=\"" << num(p) << "\" y1=\"" << num(top)
       << "\" x2=\"" << num(p) << "\" y2=\"" << num(bottom) << "\"/>\n";
-    if (label)
+    if (!text.empty())
       o << "<text class=\"tick\" x=\"" << num(p) << "\" y=\"" << num(bottom + 14) << "\" text-anchor=\"middle\">"
-        << si_format(v) << "</text>\n";
+        << text << "</text>\n";
   };
-  const auto hgrid = [&](double v) {
+  const auto hgrid = [&](double v, const std::string& text) {
     const double p = y.to_px(v);
     o << "<line class=\"grid\" x1=\"" << num(left) << "\" y1=\"" << num(p) << "\" x2=\"" << num(right) << "\" y2=\""
       << num(p) << "\"/>\n";
     o << "<text class=\"tick\" x=\"" << num(left - 5) << "\" y=\"" << num(p + 4) << "\" text-anchor=\"end\">"
-      << si_format(v) << "</text>\n";
+      << text << "</text>\n";
   };
   if (x.log) {
     const LogTicks t = log_ticks(x.lo, x.hi);
     const bool few = t.major.size() <= 2;  // label 2 and 5 too when there are few decades
-    for (double v : t.minor) vgrid(v, false, few);
-    for (double v : t.major) vgrid(v, true, true);
+    for (double v : t.minor) vgrid(v, false, few ? si_format(v) : std::string());
+    for (double v : t.major) vgrid(v, true, si_format(v));
   } else {
-    for (double v : linear_ticks(x.lo, x.hi, 8)) vgrid(v, true, true);
+    const std::vector<double> xt = linear_ticks(x.lo, x.hi, 8);
+    const double step = xt.size() > 1 ? xt[1] - xt[0] : 1;
+    for (double v : xt) vgrid(v, true, tick_label(v, step));
   }
   std::vector<double> yt;
   if (y.tick_step > 0) {
@@ -249,7 +269,8 @@ std::string Plot::render() const {
   } else {
     yt = linear_ticks(y.lo, y.hi, 5);
   }
-  for (double v : yt) hgrid(v);
+  const double ystep = yt.size() > 1 ? yt[1] - yt[0] : 1;
+  for (double v : yt) hgrid(v, tick_label(v, ystep));
   o << "<text class=\"label\" x=\"" << num((left + right) / 2) << "\" y=\"" << num(height_ - 6)
     << "\" text-anchor=\"middle\">" << xml_escape(x.label) << "</text>\n";
   o << "<text class=\"label\" transform=\"translate(14 " << num((top + bottom) / 2)
@@ -257,7 +278,7 @@ std::string Plot::render() const {
   o << "<text class=\"title\" x=\"" << num(left) << "\" y=\"16\">" << xml_escape(title_) << "</text>\n";
 
   // data, clipped to the frame as a second guard (points outside already break lines)
-  static int plot_id = 0;
+  static std::atomic<int> plot_id{0};  // clip-path ids unique in a page
   const std::string clip = "clip" + std::to_string(++plot_id);
   o << "<clipPath id=\"" << clip << "\"><rect x=\"" << num(left) << "\" y=\"" << num(top) << "\" width=\""
     << num(right - left) << "\" height=\"" << num(bottom - top) << "\"/></clipPath>\n";

@@ -89,6 +89,17 @@ TEST(SvgTicks, LabelsUseSiPrefixesOutsideOneThousandth) {
   EXPECT_EQ(svg::si_quantity(4.7e-7, "s"), "470 ns");
 }
 
+// Tick labels carry the decimals their step needs, so neighbours never print alike.
+TEST(SvgTicks, LinearLabelsShowTheDecimalsOfTheStep) {
+  svg::Plot p("t");
+  p.series.push_back({"s", {2.1275, 2.1525}, {0, 0.75}});
+  p.x.lo = 2.125, p.x.hi = 2.155;  // step 0.005
+  p.y.lo = 0, p.y.hi = 1, p.y.tick_step = 0.25;
+  const std::string svg_text = p.render();
+  for (const char* label : {">2.125<", ">2.130<", ">2.135<", ">2.150<", ">0.25<", ">0.50<", ">0.75<", ">1.00<"})
+    EXPECT_NE(svg_text.find(label), std::string::npos) << label;
+}
+
 struct SvgPlot {
   std::string title, body;
   svg::Axis x, y;
