@@ -1,7 +1,7 @@
 // A small SVG plot writer for the HTML report: linear or log axes with 1-2-5
 // ticks, SI-prefixed tick labels, grid, lines, error bands, labelled markers,
 // circles and a legend. Colours are the Okabe-Ito palette (Okabe & Ito 2008,
-// "Color Universal Design"), distinguishable with the common colour-vision
+// "Color Universal Design"; hex values from memory), distinguishable with the common colour-vision
 // deficiencies; every series also differs in width or dash, so a grey print
 // still tells them apart.
 //

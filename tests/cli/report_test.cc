@@ -34,7 +34,7 @@ namespace {
 // ---------------------------------------------------------------- SVG writer
 
 // 1-2-5 ticks (common practice for plot axes; the same rule as the
-// "nice numbers" of Heckbert, Graphics Gems, 1990).
+// "nice numbers" of Heckbert, Graphics Gems, 1990 — from memory).
 TEST(SvgTicks, LinearTicksFallOnOneTwoFive) {
   const auto z = svg::linear_ticks(0, 1, 5);
   ASSERT_EQ(z.size(), 6u);
@@ -73,7 +73,7 @@ TEST(SvgTicks, NiceRangesWidenToOneTwoFive) {
   EXPECT_DOUBLE_EQ(hi, 50);
 }
 
-// SI prefixes: BIPM, The International System of Units, 9th ed. (2019), table 7.
+// SI prefixes: BIPM, The International System of Units, 9th ed. (2019), table 7 (from memory).
 TEST(SvgTicks, LabelsUseSiPrefixesOutsideOneThousandth) {
   EXPECT_EQ(svg::si_format(1500), "1.5k");
   EXPECT_EQ(svg::si_format(2e6), "2M");
