@@ -342,16 +342,20 @@ int run_batch(const BatchArgs& a) {
     mine.push_back(&all[i]);
     if (!done.count(all[i].cell.at("unit"))) todo.push_back(&all[i]);
   }
-  // append as units finish: an interrupted run keeps every finished unit
-  {  // drop a cut-off last line before appending
-    std::string keep;
+  // The results file's text: this shard's units in manifest order, then any
+  // lines of units outside the shard, as they were.
+  std::set<std::string> mine_ids;
+  for (const Unit* u : mine) mine_ids.insert(u->cell.at("unit"));
+  const auto ordered = [&](const std::map<std::string, std::string>& lines) {
+    std::string text;
     for (const Unit* u : mine)
-      if (done.count(u->cell.at("unit"))) keep += done[u->cell.at("unit")] + "\n";
-    for (const auto& [id, line] : done)
-      if (std::none_of(mine.begin(), mine.end(), [&](const Unit* u) { return u->cell.at("unit") == id; }))
-        keep += line + "\n";  // lines of units not in this shard are kept as they are
-    if (!done.empty()) write_file_atomically(a.out, keep);
-  }
+      if (const auto it = lines.find(u->cell.at("unit")); it != lines.end()) text += it->second + "\n";
+    for (const auto& [id, line] : lines)
+      if (!mine_ids.count(id)) text += line + "\n";
+    return text;
+  };
+  // drop a cut-off last line, then append as units finish: an interrupted run keeps every finished unit
+  if (!done.empty()) write_file_atomically(a.out, ordered(done));
   std::ofstream out(a.out, std::ios::binary | std::ios::app);
   if (!out) throw InputError(a.out + ": cannot write");
   std::mutex m;
@@ -378,17 +382,12 @@ int run_batch(const BatchArgs& a) {
   out.close();
   if (!a.quiet && !todo.empty()) std::cerr << "\n";
   // complete: rewrite in manifest order
-  std::string sorted;
   std::size_t pass = 0, fail = 0, error = 0;
   for (const Unit* u : mine) {
-    const std::string& line = results.at(u->cell.at("unit"));
-    sorted += line + "\n";
-    const std::string status = nlohmann::json::parse(line).value("status", "");
+    const std::string status = nlohmann::json::parse(results.at(u->cell.at("unit"))).value("status", "");
     pass += status == "pass", fail += status == "fail", error += status == "error";
   }
-  for (const auto& [id, line] : done)
-    if (std::none_of(mine.begin(), mine.end(), [&](const Unit* u) { return u->cell.at("unit") == id; })) sorted += line + "\n";
-  write_file_atomically(a.out, sorted);
+  write_file_atomically(a.out, ordered(results));
   if (!a.quiet)
     std::cout << "benchid batch: " << mine.size() << " units" << (shard.count > 1 ? " in shard " + a.shard : "") << " ("
               << todo.size() << " run now, " << mine.size() - todo.size() << " already done): " << pass << " pass, "
@@ -407,8 +406,9 @@ void add_batch_command(CLI::App& app) {
                "could not be analysed, 2 bad manifest.");
   c->add_option("manifest", a->manifest, "CSV, one unit per row; columns unit, record (relative to the manifest's "
                 "folder), input, output, and optionally reference, excitation, rate, controller, order, delay, band, "
-                "integrators, and the limits pm_min, gm_min, ms_max_db, dc_gain_min, dc_gain_max, resonance_hz_min, "
-                "resonance_hz_max, nrmse_max (an empty cell: not used)")->required();
+                "integrators, and the limits pm_min (deg), gm_min (dB), ms_max_db (dB), dc_gain_min, dc_gain_max (output "
+                "unit per input unit), resonance_hz_min, resonance_hz_max (Hz, the lowest resonance), nrmse_max "
+                "(fraction) (an empty cell: not used)")->required();
   c->add_option("-o,--out", a->out, "Results, JSON lines (one per unit, manifest order)")->required();
   c->add_option("--jobs", a->jobs, "Units analysed at once on this machine (default 1)");
   c->add_option("--shard", a->shard, "I/N: only every N-th unit starting at the I-th (I from 0), for a job array "

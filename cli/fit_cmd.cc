@@ -62,6 +62,12 @@ fit::FitOptions fit_options(const FitArgs& a) {
   return o;
 }
 
+void require_converged(const fit::FrfFit& f) {
+  if (!f.result.converged)
+    throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
+                   " iterations; try a lower --order, a narrower --band or --weighting relative");
+}
+
 fit::FitSummary fit_record(const fit::FrfFit& f, const std::string& source) {
   fit::FitSummary fs;
   fs.order = static_cast<int>(f.result.model.order());
@@ -99,9 +105,7 @@ void run_fit(const FitCommand& a) {
   const fit::FrfFit f = fit::fit_frf(frf, o);
   const std::string summary = fit::fit_summary(f, a.frf);
   (a.json ? std::cerr : std::cout) << (a.quiet ? std::string() : summary + "\n");
-  if (!f.result.converged)
-    throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
-                   " iterations; try a lower --order, a narrower --band or --weighting relative");
+  require_converged(f);
   const fit::FitSummary fs = fit_record(f, a.frf);
   fit::RationalModel out_model = f.result.model;
   std::ostream& say = a.json ? std::cerr : std::cout;

@@ -166,25 +166,6 @@ std::string modes_table(const fit::RationalModel& m) {
   return o.str();
 }
 
-// The loop's response, on the model plant or on the interpolated FRF.
-struct LoopCurve {
-  std::vector<double> f_hz;
-  std::vector<cplx> l;
-};
-
-LoopCurve loop_curve(const LoopAnalysis& la, const fit::RationalModel* plant, double lo_hz, double hi_hz) {
-  const loop::Controller c = loop::parse_controller(la.controller);
-  LoopCurve lc;
-  lc.f_hz = log_grid(lo_hz, hi_hz, 2000);  // dense enough for a lightly damped mode on the Nyquist plot
-  for (double f : lc.f_hz) {
-    if (la.frf_plant)
-      lc.l.push_back(loop::margins_loop_value(la.fm, f));
-    else
-      lc.l.push_back(plant->response(f) * c.model.response(f));
-  }
-  return lc;
-}
-
 }  // namespace
 
 std::string html_report(const ReportData& d) {
@@ -371,7 +352,7 @@ std::string html_report(const ReportData& d) {
     // at most about 1600 points a curve: beyond that, each bucket of samples
     // gives its smallest and largest value in time order (the envelope stays)
     const std::size_t bucket = std::max<std::size_t>(1, len / 800);
-    std::vector<double> t, ym, ys, yr, tm, ts, tr;
+    std::vector<double> ym, ys, yr, tm, ts, tr;
     const auto take = [&](const std::function<double(std::size_t)>& v, std::vector<double>& tt, std::vector<double>& out) {
       for (std::size_t k = start0; k < start0 + len; k += bucket) {
         const std::size_t e = std::min(start0 + len, k + bucket);
@@ -390,14 +371,13 @@ std::string html_report(const ReportData& d) {
     take([&](std::size_t j) { return y[j]; }, tm, ym);
     take([&](std::size_t j) { return r.simulated[j]; }, ts, ys);
     take([&](std::size_t j) { return y[j] - r.simulated[j]; }, tr, yr);
-    t = tm;
     if (len >= 2) {
       svg::Plot p("Measured and simulated output");
       p.series.push_back({"measured", tm, ym, svg::blue, 1.3});
       p.series.push_back({"simulated", ts, ys, svg::vermillion, 1.5, true});
       p.series.push_back({"residual", tr, yr, svg::green, 1.0});
       p.x.label = "time (s)";
-      p.x.lo = t.front(), p.x.hi = t.back();
+      p.x.lo = static_cast<double>(start0) / d.rate_hz, p.x.hi = static_cast<double>(start0 + len - 1) / d.rate_hz;
       p.y.label = d.frf->output + " (" + ou + ")";
       p.fit_y();
       o << figure(p, "A window of " + fmt("%.4g", static_cast<double>(len) / d.rate_hz) +
@@ -425,8 +405,16 @@ std::string html_report(const ReportData& d) {
     const loop::Margins& m = la.m;
     o << "<h2>Loop gain L = C &middot; P</h2>\n<p>Controller <code>" << esc(la.controller)
       << "</code> on the fitted model (negative feedback).</p>\n";
+    // L = C P on the fitted model (the report's loop is always on the model)
+    const loop::Controller c = loop::parse_controller(la.controller);
+    const auto loop_at = [&](double f) { return model.response(f) * c.model.response(f); };
     const double lo = std::max(f_lo, m.f_lo_hz), hi = std::min(f_hi, m.f_hi_hz);
-    const LoopCurve lc = loop_curve(la, &model, lo, hi);
+    struct {
+      std::vector<double> f_hz;
+      std::vector<cplx> l;
+    } lc;
+    lc.f_hz = log_grid(lo, hi, 2000);  // dense enough for a lightly damped mode on the Nyquist plot
+    for (double f : lc.f_hz) lc.l.push_back(loop_at(f));
     std::vector<double> lmag, lph = unwrapped_deg(lc.l), smag, tmag, re, im;
     for (const cplx& v : lc.l) {
       lmag.push_back(20 * std::log10(std::abs(v)));
@@ -444,7 +432,6 @@ std::string html_report(const ReportData& d) {
     // L from the measured FRF lines (reliable only)
     std::vector<double> fl, lmag_meas, lph_meas;
     {
-      const loop::Controller c = loop::parse_controller(la.controller);
       std::vector<cplx> lm;
       for (std::size_t i = 0; i < frf.size(); ++i)
         if (frf.reliable[i] && frf.freq_hz[i] >= lo && frf.freq_hz[i] <= hi) {
@@ -519,8 +506,7 @@ std::string html_report(const ReportData& d) {
       p.y.label = "magnitude (dB)";
       if (m.ms > 0 && p.x.contains(m.ms_hz)) p.markers.push_back({"Ms " + fmt("%.2f", 20 * std::log10(m.ms)) + " dB", m.ms_hz, 20 * std::log10(m.ms), svg::blue});
       if (std::isfinite(m.bandwidth_hz) && p.x.contains(m.bandwidth_hz)) {
-        const cplx lb = la.frf_plant ? loop::margins_loop_value(la.fm, m.bandwidth_hz)
-                                     : model.response(m.bandwidth_hz) * loop::parse_controller(la.controller).model.response(m.bandwidth_hz);
+        const cplx lb = loop_at(m.bandwidth_hz);
         p.markers.push_back({"bandwidth " + svg::si_quantity(m.bandwidth_hz, "Hz"), m.bandwidth_hz, 20 * std::log10(std::abs(lb / (1.0 + lb))), svg::green});
       }
       p.fit_y();

@@ -8,12 +8,29 @@
 
 #include "cli/commands.h"
 #include "cli/output.h"
+#include "cli/stages.h"
 #include "fit/model_json.h"
 #include "fit/replay.h"
 #include "ident/error.h"
 #include "ident/record.h"
 
 namespace benchid::cli {
+
+ChannelPair read_channel_pair(const std::string& record, const std::string& input, const std::string& output,
+                              const ident::ReadOptions& ro) {
+  auto reader = ident::open_record(record, ro);
+  const std::size_t iu = reader->channel_index(input), iy = reader->channel_index(output);
+  if (iu == iy) throw InputError(record + ": input and output are the same channel; expected two channels");
+  reader->select({iu, iy});
+  ChannelPair p;
+  std::vector<std::vector<double>> block;
+  while (reader->read_block(1 << 16, block) > 0) {
+    p.u.insert(p.u.end(), block[0].begin(), block[0].end());
+    p.y.insert(p.y.end(), block[1].begin(), block[1].end());
+  }
+  p.rate_hz = reader->rate_hz();
+  return p;
+}
 
 namespace {
 
@@ -32,16 +49,9 @@ void run_replay(const ReplayArgs& a) {
   const fit::RationalModel m = fit::read_model_json(a.model);
   ident::ReadOptions ro;
   ro.rate_hz = a.rate_hz;
-  auto reader = ident::open_record(a.record, ro);
-  const std::size_t iu = reader->channel_index(a.input), iy = reader->channel_index(a.output);
-  if (iu == iy) throw InputError(a.record + ": input and output are the same channel; expected two channels");
-  reader->select({iu, iy});
-  std::vector<double> u, y;
-  std::vector<std::vector<double>> block;
-  while (reader->read_block(1 << 16, block) > 0) {
-    u.insert(u.end(), block[0].begin(), block[0].end());
-    y.insert(y.end(), block[1].begin(), block[1].end());
-  }
+  const ChannelPair rec = read_channel_pair(a.record, a.input, a.output, ro);
+  const std::vector<double>& u = rec.u;
+  const std::vector<double>& y = rec.y;
   fit::ReplayOptions o;
   if (a.lags < 1 || a.lags > 10000) throw InputError("--lags " + std::to_string(a.lags) + ": expected 1 to 10000");
   if (!(a.practical > 0 && a.practical < 1)) throw InputError("--practical " + fmt_num(a.practical) + ": expected a value in (0, 1)");
@@ -50,7 +60,7 @@ void run_replay(const ReplayArgs& a) {
   if (a.hold != "measured" && a.hold != "zoh") throw InputError("--hold '" + a.hold + "' is unknown; expected measured or zoh");
   o.hold = a.hold == "zoh" ? fit::Hold::zoh : fit::Hold::as_measured;
   o.practical = a.practical;
-  const double rate = reader->rate_hz();
+  const double rate = rec.rate_hz;
   const fit::ReplayResult r = fit::replay(m, u, y, rate, o);
   std::cout << "benchid replay: " << a.model << " on " << a.record << " (" << u.size() << " samples at " << fmt_num(rate)
             << " Hz; " << (r.hold == fit::Hold::zoh ? "input held between samples" : "model response applied to the samples")

@@ -46,10 +46,6 @@ fit::FrfFit fit_pipeline(const ident::Frf& frf, const FitArgs& a, fit::FitOption
 ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet);
 void add_report_options(CLI::App* c, ReportArgs& a);
 
-}  // namespace benchid::cli
-
-namespace benchid::cli {
-
 // One bundled demo scenario (datasets_demo/), all invented.
 struct DemoScenario {
   std::string name, title;

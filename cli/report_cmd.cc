@@ -55,19 +55,17 @@ auto stage(const char* name, F&& f) {
 
 Band trusted_band(const ident::Frf& f, double max_rel_err) {
   Band b;
-  std::size_t total = 0, good = 0;
-  std::vector<std::uint8_t> recent;
+  std::vector<std::uint8_t> ok;  // trusted, line by line from the first trusted one
+  std::size_t good = 0, recent_good = 0;  // in all of ok, and in its last 16
   for (std::size_t i = 0; i < f.size(); ++i) {
-    const bool ok = f.reliable[i] && std::isfinite(f.rel_err[i]) && f.rel_err[i] <= max_rel_err;
-    if (total == 0 && !ok) continue;  // the band starts at the first trusted line
-    if (total == 0) b.lo_hz = f.freq_hz[i];
-    ++total;
-    good += ok;
-    recent.push_back(ok);
-    if (recent.size() > 16) recent.erase(recent.begin());
-    std::size_t recent_good = 0;
-    for (auto r : recent) recent_good += r;
-    if (ok && good >= 0.9 * static_cast<double>(total) && 4 * recent_good >= 3 * recent.size()) b.hi_hz = f.freq_hz[i];
+    const bool t = f.reliable[i] && std::isfinite(f.rel_err[i]) && f.rel_err[i] <= max_rel_err;
+    if (ok.empty() && !t) continue;
+    if (ok.empty()) b.lo_hz = f.freq_hz[i];
+    ok.push_back(t);
+    good += t, recent_good += t;
+    if (ok.size() > 16) recent_good -= ok[ok.size() - 17];
+    const std::size_t recent = std::min<std::size_t>(ok.size(), 16);
+    if (t && good >= 0.9 * static_cast<double>(ok.size()) && 4 * recent_good >= 3 * recent) b.hi_hz = f.freq_hz[i];
   }
   return b;
 }
@@ -86,9 +84,7 @@ fit::FrfFit fit_pipeline(const ident::Frf& frf, const FitArgs& a, fit::FitOption
            fmt_num(100 * kTrustedRelErr) + " % (--band to choose)";
   }
   fit::FrfFit f = fit::fit_frf(frf, o);
-  if (!f.result.converged)
-    throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
-                   " iterations; try a lower --order, a narrower --band or --weighting relative");
+  require_converged(f);
   if (band_note) *band_note = note;
   return f;
 }
@@ -139,23 +135,17 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   const fit::FitSummary summary = fit_record(ft, paths.frf);
   lap(times.fit_s);
   // replay on the recording
-  std::vector<double> u, y;
-  double rate_hz = 0;
+  // (the FRF stage streamed the record; the replay needs it whole, so it is read again)
+  ChannelPair rec;
   const fit::ReplayResult rp = stage("replay", [&] {
     ident::ReadOptions ro;
     ro.rate_hz = a.frf.rate_hz;
+    ro.fallback_rate_hz = frf.rate_hz;  // the rate the FRF stage used (e.g. from an excitation sidecar)
     ro.jitter_tolerance = a.frf.jitter;
-    auto reader = ident::open_record(a.frf.record, ro);
-    reader->select({reader->channel_index(a.frf.input), reader->channel_index(a.frf.output)});
-    std::vector<std::vector<double>> block;
-    while (reader->read_block(1 << 16, block) > 0) {
-      u.insert(u.end(), block[0].begin(), block[0].end());
-      y.insert(y.end(), block[1].begin(), block[1].end());
-    }
-    rate_hz = reader->rate_hz();
+    rec = read_channel_pair(a.frf.record, a.frf.input, a.frf.output, ro);
     fit::ReplayOptions o;
     o.holdout_fraction = a.frf.split;
-    return fit::replay(ft.result.model, u, y, rate_hz, o);
+    return fit::replay(ft.result.model, rec.u, rec.y, rec.rate_hz, o);
   });
   lap(times.replay_s);
   // loop
@@ -181,8 +171,8 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   d.frf = &frf;
   d.fit = &ft;
   d.replay = &rp;
-  d.y_measured = &y;
-  d.rate_hz = rate_hz;
+  d.y_measured = &rec.y;
+  d.rate_hz = rec.rate_hz;
   d.loop = lm ? &*lm : nullptr;
   d.loop_frf = lf ? &*lf : nullptr;
   d.files = {{paths.frf, "the FRF (benchid frf CSV)"}, {paths.model, "the fitted model (benchid.model/1 JSON)"}};

@@ -19,6 +19,7 @@
 #include "fit/model.h"
 #include "fit/model_json.h"
 #include "ident/frf.h"
+#include "ident/record.h"
 #include "loop/frf_loop.h"
 #include "loop/margins.h"
 #include "loop/stability.h"
@@ -57,6 +58,16 @@ ident::Frf compute_frf(const FrfArgs& a);
 // The paths compute_frf reads (the record and any sidecar), for overwrite checks.
 std::vector<std::string> frf_inputs(const FrfArgs& a);
 
+// ---- replay ----------------------------------------------------------------
+// Input and output channels of a recording, read whole, and its rate; the
+// same channel twice is refused.
+struct ChannelPair {
+  std::vector<double> u, y;
+  double rate_hz = 0;
+};
+ChannelPair read_channel_pair(const std::string& record, const std::string& input, const std::string& output,
+                              const ident::ReadOptions& ro);
+
 // ---- fit -------------------------------------------------------------------
 struct FitArgs {
   std::string order = "auto", delay = "0", band, weighting = "variance";
@@ -69,6 +80,8 @@ struct FitArgs {
 // pipeline: `report`'s defaults (delay auto, the trusted band).
 void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline);
 fit::FitOptions fit_options(const FitArgs& a);
+// NoResult (exit status 1) with advice when the fit did not converge.
+void require_converged(const fit::FrfFit& f);
 // The "fit" object of the model JSON for a finished fit.
 fit::FitSummary fit_record(const fit::FrfFit& f, const std::string& source);
 
