@@ -175,13 +175,15 @@ std::map<std::string, double> read_limits(const std::string& path) {
 ojson number(double v) { return std::isfinite(v) ? ojson(v) : ojson(nullptr); }
 
 // The pipeline on one unit; throws on bad input or no result.
-ojson analyse(const Unit& u, ojson& line, bool& pass) {
+// read_threads: threads reading each record (1 when units already run in parallel)
+ojson analyse(const Unit& u, ojson& line, bool& pass, std::size_t read_threads) {
   const auto& c = u.cell;
   const auto get = [&](const std::string& k) {
     const auto it = c.find(k);
     return it == c.end() ? std::string() : it->second;
   };
   FrfArgs fa;
+  fa.threads = read_threads;
   fa.record = get("record");
   fa.input = get("input");
   fa.output = get("output");
@@ -267,14 +269,14 @@ ojson analyse(const Unit& u, ojson& line, bool& pass) {
   return checks;
 }
 
-ojson run_unit(const Unit& u) {
+ojson run_unit(const Unit& u, std::size_t read_threads) {
   ojson line;
   line["unit"] = u.cell.at("unit");
   line["record"] = u.cell.at("record");
   bool pass = true;
   try {
     ojson body;
-    const ojson checks = analyse(u, body, pass);
+    const ojson checks = analyse(u, body, pass, read_threads);
     line["status"] = pass ? "pass" : "fail";
     for (auto& [k, v] : body.items()) line[k] = v;
     line["checks"] = checks;
@@ -364,7 +366,7 @@ int run_batch(const BatchArgs& a) {
   std::size_t finished = 0;
   const auto worker = [&] {
     for (std::size_t k = next++; k < todo.size(); k = next++) {
-      const std::string line = run_unit(*todo[k]).dump();
+      const std::string line = run_unit(*todo[k], a.jobs > 1 ? 1 : 0).dump();
       const std::lock_guard<std::mutex> lock(m);
       out << line << '\n';
       out.flush();

@@ -55,6 +55,8 @@ ident::Frf compute_frf(const FrfArgs& a) {
   ro.rate_hz = a.rate_hz;
   if (side) ro.fallback_rate_hz = side->excitation.rate_hz;
   ro.jitter_tolerance = a.jitter;
+  ro.threads = a.threads;
+  if (a.threads > 256) throw InputError("--threads " + std::to_string(a.threads) + ": expected 0 (one per core) to 256");
   if (!(a.jitter > 0 && a.jitter < 0.5))
     throw InputError("--jitter-tolerance " + fmt_num(a.jitter) + ": expected a fraction in (0, 0.5)");
   auto reader = ident::open_record(a.record, ro);
@@ -65,6 +67,7 @@ ident::Frf compute_frf(const FrfArgs& a) {
     reader->set_scale(reader->channel_index(s.substr(0, c)), parse_number(s.substr(c + 1), "--scale factor"));
   }
   ident::FrfOptions o;
+  o.prefetch = a.threads != 1;
   if (a.segment) o.welch.segment = a.segment;
   o.resolution_hz = a.resolution_hz;
   if (a.segment && a.resolution_hz > 0) throw InputError("give --segment or --resolution, not both");
@@ -181,6 +184,8 @@ void add_frf_options(CLI::App* c, FrfArgs& a, bool pipeline) {
                 "e.g. 2:12.5 for a 12.5 A/FS current probe); repeatable (default: none, values as recorded)")->take_all();
   c->add_option("--confidence", a.confidence, "Confidence level of the zero-coherence bound below which lines "
                 "are flagged unreliable (default 0.95)");
+  c->add_option("--threads", a.threads, "Threads reading and parsing the record besides the spectra: 0 = one per "
+                "core, 1 = all on one thread; the results are identical either way (default 0)");
   c->add_option("--jitter-tolerance", a.jitter, "Allowed deviation of one time step from the nominal step, as a "
                 "fraction, besides the printed resolution of the time values (default 0.01)");
   c->add_option("--excitation", a.excitation, "Sidecar JSON from 'benchid excite': multisine and prbs records are "

@@ -51,6 +51,7 @@ struct FrfArgs {
   double confidence = ident::FrfOptions{}.confidence;
   double jitter = ident::ReadOptions{}.jitter_tolerance;
   bool loop_gain = false;
+  std::size_t threads = 0;  // threads reading the record: 0 = one per core, 1 = none besides the caller
 };
 // pipeline: the options `report` takes too (without --band, which is the fit's there).
 void add_frf_options(CLI::App* c, FrfArgs& a, bool pipeline);

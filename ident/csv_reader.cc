@@ -8,8 +8,12 @@
 // ("1,25") is accepted. A header of numbers means there is no header; the
 // columns are then named "1", "2", ...
 //
-// Speed: the file is read in 4 MiB chunks, lines found with memchr, numbers
-// parsed in place with std::from_chars; no allocation per row or field.
+// Speed: the file is read in chunks (4 MiB by default), lines found with
+// memchr, numbers parsed in place (Clinger's fast path, else
+// std::from_chars); no allocation per row or field. Each chunk is split at
+// line ends into pieces parsed on separate threads, then joined and checked
+// in file order, so values, time checks and the first error reported are the
+// same for any number of threads and any chunk size.
 #include <fcntl.h>
 #include <unistd.h>
 
@@ -21,6 +25,15 @@
 #include <cmath>
 #include <cstring>
 #include <string_view>
+#include <system_error>
+#include <thread>
+#include <atomic>
+#include <condition_variable>
+#include <functional>
+#include <memory>
+#include <mutex>
+#include <exception>
+#include <vector>
 
 #include "ident/detail/readers.h"
 #include "ident/error.h"
@@ -29,7 +42,7 @@ namespace benchid::ident::detail {
 
 namespace {
 
-constexpr std::size_t kChunk = 4u << 20;      // bytes read at a time
+constexpr std::size_t kChunk = 4u << 20;      // bytes read at a time by count_frames()
 constexpr std::size_t kMaxLine = 1u << 20;    // longest accepted line, bytes
 constexpr std::size_t kMaxColumns = 4096;     // most accepted columns
 
@@ -146,6 +159,74 @@ TimeName time_name(const std::string& name, const std::string& unit) {
   return t;
 }
 
+// Runs job(0..n-1) on the calling thread and a few helper threads that wait
+// between runs (a chunk at a time), each taking the next index in turn.
+class WorkPool {
+ public:
+  explicit WorkPool(std::size_t helpers) {
+    for (std::size_t i = 0; i < helpers; ++i) {
+      try {
+        threads_.emplace_back([this] { loop(); });
+      } catch (const std::system_error&) {
+        break;  // fewer helpers; the caller does the rest
+      }
+    }
+  }
+  ~WorkPool() {
+    {
+      std::lock_guard<std::mutex> lk(m_);
+      quit_ = true;
+    }
+    wake_.notify_all();
+    for (auto& t : threads_) t.join();
+  }
+  WorkPool(const WorkPool&) = delete;
+  WorkPool& operator=(const WorkPool&) = delete;
+
+  // job must not throw.
+  void run(std::size_t n, const std::function<void(std::size_t)>& job) {
+    {
+      std::lock_guard<std::mutex> lk(m_);
+      job_ = &job;
+      n_ = n;
+      next_.store(0);
+      busy_ = threads_.size();
+      ++generation_;
+    }
+    wake_.notify_all();
+    work();
+    std::unique_lock<std::mutex> lk(m_);
+    done_.wait(lk, [&] { return busy_ == 0; });
+    job_ = nullptr;
+  }
+
+ private:
+  void work() {
+    for (std::size_t k; (k = next_.fetch_add(1)) < n_;) (*job_)(k);
+  }
+  void loop() {
+    std::size_t seen = 0;
+    for (;;) {
+      {
+        std::unique_lock<std::mutex> lk(m_);
+        wake_.wait(lk, [&] { return quit_ || generation_ != seen; });
+        if (quit_) return;
+        seen = generation_;
+      }
+      work();
+      std::lock_guard<std::mutex> lk(m_);
+      if (--busy_ == 0) done_.notify_all();
+    }
+  }
+  std::vector<std::thread> threads_;
+  std::mutex m_;
+  std::condition_variable wake_, done_;
+  const std::function<void(std::size_t)>* job_ = nullptr;
+  std::size_t n_ = 0, busy_ = 0, generation_ = 0;
+  std::atomic<std::size_t> next_{0};
+  bool quit_ = false;
+};
+
 class CsvReader final : public RecordReader {
  public:
   CsvReader(const std::string& path, const ReadOptions& opts) : opts_(opts) {
@@ -153,7 +234,9 @@ class CsvReader final : public RecordReader {
     info_.format = "csv";
     fd_ = ::open(path.c_str(), O_RDONLY);
     if (fd_ < 0) throw InputError("cannot open '" + path + "': " + std::strerror(errno));
-    buf_.resize(kChunk + kMaxLine);
+    chunk_ = std::max<std::size_t>(opts.chunk_bytes, 64);
+    threads_ = opts.threads > 0 ? opts.threads : std::clamp<std::size_t>(std::thread::hardware_concurrency(), 1, 8);
+    buf_.resize(chunk_ + kMaxLine);
     try {
       read_header();
       detect_decimal_comma();
@@ -178,22 +261,18 @@ class CsvReader final : public RecordReader {
     out.resize(selected_.size());
     for (auto& v : out) v.resize(max_frames);
     std::size_t n = 0;
-    const char *b, *e;
     while (n < max_frames) {
-      if (!pending_.empty()) {
-        // a first data row met while looking for the header
-        std::string row;
-        row.swap(pending_);
-        parse_row(row.data(), row.data() + row.size(), out, n, pending_line_);
-        ++n;
+      if (cur_piece_ == npieces_ && !fill()) break;
+      const Piece& pc = pieces_[cur_piece_];
+      if (cur_row_ == pc.rows) {
+        ++cur_piece_, cur_row_ = 0;
         continue;
       }
-      if (!next_line(b, e)) break;
-      const char* p = b;
-      while (p < e && is_space(*p)) ++p;
-      if (p == e || *p == '#') continue;  // blank or comment line
-      parse_row(b, e, out, n, line_no_);
-      ++n;
+      const std::size_t take = std::min(max_frames - n, pc.rows - cur_row_);
+      for (std::size_t i = 0; i < out.size(); ++i)
+        std::memcpy(out[i].data() + n, pc.cols[i].data() + cur_row_, take * sizeof(double));
+      cur_row_ += take;
+      n += take;
     }
     for (auto& v : out) v.resize(n);
     for (std::size_t i = 0; i < selected_.size(); ++i) {
@@ -205,8 +284,8 @@ class CsvReader final : public RecordReader {
   }
 
   double rate_hz() const override {
-    if (!use_time_ || frames_read_ < 2) return info_.rate_hz;
-    return static_cast<double>(frames_read_ - 1) / (t_last_ - t_first_);
+    if (!use_time_ || time_rows_ < 2) return info_.rate_hz;
+    return static_cast<double>(time_rows_ - 1) / (t_last_ - t_first_);
   }
 
   std::size_t count_frames() override {
@@ -247,7 +326,41 @@ class CsvReader final : public RecordReader {
  private:
   static constexpr int kTimeSlot = -2;
 
-  // Next physical line [b, e) without its end-of-line; false at end of file.
+  // Moves the unread bytes [pos_, end_) to the front of the buffer and reads
+  // until it is full or the file ends. A NUL byte is remembered (nul_), not
+  // refused here: the line holding it is refused when it is reached, so the
+  // error names that line whatever the chunk size.
+  void refill() {
+    const std::size_t rem = end_ - pos_;
+    std::memmove(buf_.data(), buf_.data() + pos_, rem);
+    if (nul_ != kNone) nul_ -= pos_;
+    pos_ = 0;
+    end_ = rem;
+    while (!eof_ && end_ < buf_.size()) {
+      const ssize_t r = ::read(fd_, buf_.data() + end_, buf_.size() - end_);
+      if (r < 0 && errno == EINTR) continue;
+      if (r < 0) throw InputError("cannot read '" + info_.path + "': " + std::strerror(errno));
+      if (r == 0) {
+        eof_ = true;
+        break;
+      }
+      if (nul_ == kNone) {
+        const void* z = std::memchr(buf_.data() + end_, 0, static_cast<std::size_t>(r));
+        if (z) nul_ = static_cast<std::size_t>(static_cast<const char*>(z) - buf_.data());
+      }
+      end_ += static_cast<std::size_t>(r);
+    }
+  }
+
+  [[noreturn]] void refuse_nul(long line) const {
+    throw InputError(where(info_.path, line) + "binary data (a NUL byte) in a text log; expected CSV text");
+  }
+  [[noreturn]] void refuse_long(long line) const {
+    throw InputError(where(info_.path, line) + "line longer than 1 MiB; expected a log with one sample per line");
+  }
+
+  // Next physical line [b, e) without its end-of-line; false at end of file
+  // (header and comment lines before it; data rows go through fill()).
   bool next_line(const char*& b, const char*& e) {
     for (;;) {
       char* start = buf_.data() + pos_;
@@ -258,32 +371,188 @@ class CsvReader final : public RecordReader {
         pos_ = static_cast<std::size_t>(e - buf_.data()) + (nl ? 1 : 0);
         if (e > b && e[-1] == '\r') --e;
         ++line_no_;
-        if (static_cast<std::size_t>(e - b) > kMaxLine)
-          throw InputError(where(info_.path, line_no_) + "line longer than 1 MiB; " +
-                           "expected a log with one sample per line");
+        if (nul_ != kNone && nul_ < pos_) refuse_nul(line_no_);
+        if (static_cast<std::size_t>(e - b) > kMaxLine) refuse_long(line_no_);
         return true;
       }
       if (eof_) return false;
-      const std::size_t rem = end_ - pos_;
-      if (rem > kMaxLine)
-        throw InputError(where(info_.path, line_no_ + 1) + "line longer than 1 MiB; " +
-                         "expected a log with one sample per line");
-      std::memmove(buf_.data(), start, rem);
-      pos_ = 0;
-      end_ = rem;
-      ssize_t r;
-      do r = ::read(fd_, buf_.data() + end_, buf_.size() - end_);
-      while (r < 0 && errno == EINTR);
-      if (r < 0) throw InputError("cannot read '" + info_.path + "': " + std::strerror(errno));
-      if (r == 0) {
-        eof_ = true;
-      } else {
-        if (std::memchr(buf_.data() + end_, 0, static_cast<std::size_t>(r)) != nullptr)
-          throw InputError(where(info_.path, line_no_ + 1) +
-                           "binary data (a NUL byte) in a text log; expected CSV text");
-        end_ += static_cast<std::size_t>(r);
-      }
+      if (end_ - pos_ > kMaxLine) refuse_long(line_no_ + 1);
+      refill();
     }
+  }
+
+  // Rows parsed from one piece of a chunk (by one thread).
+  struct RowTime {
+    double t = 0;
+    const char* b = nullptr;  // time stamp as printed
+    const char* e = nullptr;
+  };
+  struct alignas(64) Piece {
+    const char* b = nullptr;  // whole lines [b, e)
+    const char* e = nullptr;
+    std::vector<std::vector<double>> cols;  // per selected channel, rows (capacity may exceed)
+    std::vector<RowTime> time;              // per row when the time column is checked
+    std::size_t rows = 0;
+    long lines = 0;               // physical lines in the piece (comments and blanks included)
+    const char* fail_b = nullptr;  // the first line that failed to parse, and its local number
+    const char* fail_e = nullptr;
+    long fail_line = 0;
+    std::exception_ptr other;  // anything but a parse error (out of memory)
+  };
+
+  // Parses the data rows of one piece; never throws (errors are recorded and
+  // raised in file order by fill()). Reads only state fixed after the header.
+  void parse_piece(Piece& pc) const noexcept {
+    // Counters live in locals and are stored at the end: pieces parsed at
+    // the same time would otherwise share cache lines row by row.
+    std::size_t rows = 0;
+    long lines = 0;
+    pc.fail_b = nullptr;
+    pc.other = nullptr;
+    try {
+      std::vector<std::vector<double>> cols = std::move(pc.cols);
+      std::vector<RowTime> time = std::move(pc.time);
+      cols.resize(selected_.size());
+      std::size_t cap = cols.empty() ? time.size() : cols[0].size();
+      const char* p = pc.b;
+      const char* const end = pc.e;
+      while (p < end) {
+        const char* nl = static_cast<const char*>(std::memchr(p, '\n', static_cast<std::size_t>(end - p)));
+        const char* b = p;
+        const char* e = nl ? nl : end;
+        p = nl ? nl + 1 : end;
+        ++lines;
+        if (e > b && e[-1] == '\r') --e;
+        bool failed = static_cast<std::size_t>(e - b) > kMaxLine;
+        if (!failed) {
+          const char* q = b;
+          while (q < e && is_space(*q)) ++q;
+          if (q == e || *q == '#') continue;  // blank or comment line
+          if (rows == cap) {
+            cap = std::max<std::size_t>(4096, 2 * cap);
+            for (auto& c : cols) c.resize(cap);
+            if (use_time_) time.resize(cap);
+          }
+          RowTime rt;
+          try {
+            parse_fields(b, e, cols, rows, 0, rt);
+          } catch (const InputError&) {
+            failed = true;
+          }
+          if (!failed) {
+            if (use_time_) time[rows] = rt;
+            ++rows;
+            continue;
+          }
+        }
+        pc.fail_b = b, pc.fail_e = e, pc.fail_line = lines;
+        break;
+      }
+      pc.cols = std::move(cols);
+      pc.time = std::move(time);
+    } catch (...) {
+      pc.other = std::current_exception();
+    }
+    pc.rows = rows;
+    pc.lines = lines;
+  }
+
+  // Raises the error of a line a piece could not parse, naming its line.
+  [[noreturn]] void raise_row_error(const char* b, const char* e, long line) {
+    if (static_cast<std::size_t>(e - b) > kMaxLine) refuse_long(line);
+    std::vector<std::vector<double>> scratch(selected_.size(), std::vector<double>(1));
+    RowTime rt;
+    parse_fields(b, e, scratch, 0, line, rt);  // throws
+    throw InputError(where(info_.path, line) + "row could not be parsed");
+  }
+
+  // Parses the next chunk of whole lines into pieces_ (split at line ends
+  // and parsed by up to threads_ threads); the pieces are checked in file
+  // order, so the values and the first error reported do not depend on the
+  // number of threads or the chunk size. False at the end of the data.
+  bool fill() {
+    cur_piece_ = cur_row_ = npieces_ = 0;
+    if (!pending_.empty()) {  // a first data row met while looking for the header
+      std::string row;
+      row.swap(pending_);
+      if (pieces_.empty()) pieces_.resize(1);
+      Piece& pc = pieces_[0];
+      pc.cols.resize(selected_.size());
+      for (auto& v : pc.cols) v.resize(std::max<std::size_t>(v.size(), 1));
+      RowTime rt;
+      parse_fields(row.data(), row.data() + row.size(), pc.cols, 0, pending_line_, rt);
+      if (rt.b) check_time(rt, [&] { return pending_line_; });
+      pc.rows = 1;
+      npieces_ = 1;
+      return true;
+    }
+    for (;;) {
+      if (!eof_ && nul_ == kNone && end_ - pos_ < chunk_) refill();
+      // whole lines in [pos_, stop), at most about chunk_ bytes, ending
+      // before the line that holds a NUL byte
+      std::size_t stop = end_;
+      if (!eof_ || end_ - pos_ > chunk_) {
+        const std::size_t upto = std::min(end_, pos_ + chunk_);
+        const void* last = ::memrchr(buf_.data() + pos_, '\n', upto - pos_);
+        if (!last && upto < end_) last = std::memchr(buf_.data() + upto, '\n', end_ - upto);  // a long line
+        stop = last ? static_cast<std::size_t>(static_cast<const char*>(last) - buf_.data()) + 1
+                    : (eof_ ? end_ : pos_);
+      }
+      if (nul_ != kNone && nul_ < stop) {
+        const void* before = ::memrchr(buf_.data() + pos_, '\n', nul_ - pos_);
+        stop = before ? static_cast<std::size_t>(static_cast<const char*>(before) - buf_.data()) + 1 : pos_;
+      }
+      if (stop == pos_) {
+        if (nul_ != kNone) refuse_nul(line_no_ + 1);
+        if (eof_) return false;
+        if (end_ - pos_ > kMaxLine) refuse_long(line_no_ + 1);
+        refill();  // a line longer than the chunk: read on
+        continue;
+      }
+      const std::size_t rows = parse_region(buf_.data() + pos_, buf_.data() + stop);
+      pos_ = stop;
+      if (rows > 0) return true;
+    }
+  }
+
+  // Parses [rb, re) in pieces of about chunk_ / 16 bytes, taken in turn by the
+  // calling thread and the helpers; returns the rows.
+  std::size_t parse_region(const char* rb, const char* re) {
+    const std::size_t piece = std::max<std::size_t>(64, chunk_ / 16);  // 64 KiB for the default chunk
+    const auto len = static_cast<std::size_t>(re - rb);
+    const std::size_t n = threads_ > 1 ? std::max<std::size_t>(1, len / piece) : 1;
+    if (pieces_.size() < n) pieces_.resize(n);
+    const char* at = rb;
+    for (std::size_t k = 0; k < n; ++k) {
+      const char* end = re;
+      if (k + 1 < n) {
+        end = std::max(at, rb + len * (k + 1) / n);
+        const void* nl = std::memchr(end, '\n', static_cast<std::size_t>(re - end));
+        end = nl ? static_cast<const char*>(nl) + 1 : re;
+      }
+      pieces_[k].b = at;
+      pieces_[k].e = end;
+      at = end;
+    }
+    if (n > 1 && !pool_) pool_ = std::make_unique<WorkPool>(threads_ - 1);
+    if (n > 1) pool_->run(n, [this](std::size_t k) { parse_piece(pieces_[k]); });
+    else parse_piece(pieces_[0]);
+    // in file order: time checks, then the first failing line
+    long base = line_no_;
+    std::size_t total = 0;
+    for (std::size_t k = 0; k < n; ++k) {
+      const Piece& pc = pieces_[k];
+      if (use_time_)
+        for (std::size_t r = 0; r < pc.rows; ++r)
+          check_time(pc.time[r], [&] { return base + 1 + static_cast<long>(std::count(pc.b, pc.time[r].b, '\n')); });
+      if (pc.fail_b) raise_row_error(pc.fail_b, pc.fail_e, base + pc.fail_line);
+      if (pc.other) std::rethrow_exception(pc.other);
+      base += pc.lines;
+      total += pc.rows;
+    }
+    line_no_ = base;
+    npieces_ = n;
+    return total;
   }
 
   // Splits a line into fields with the detected delimiter (header and
@@ -488,9 +757,14 @@ class CsvReader final : public RecordReader {
     return v;
   }
 
-  void check_time(double t_raw, const char* fb, const char* fe, long line) {
-    const double t = t_raw * time_scale_;
-    const std::size_t k = frames_read_ + rows_in_block_;  // index of this sample
+  // Checks the time stamp of the next row (rows in file order); line_of()
+  // gives its line number, needed only for an error.
+  template <class LineOf>
+  void check_time(const RowTime& rt, LineOf line_of) {
+    const char* fb = rt.b;
+    const char* fe = rt.e;
+    const double t = rt.t * time_scale_;
+    const std::size_t k = time_rows_++;  // index of this sample
     const std::size_t len = std::min<std::size_t>(static_cast<std::size_t>(fe - fb), prev_text_.size());
     if (k == 0) {
       t_first_ = t_last_ = t;
@@ -499,7 +773,7 @@ class CsvReader final : public RecordReader {
       return;
     }
     if (!(t > t_last_))
-      throw InputError(where(info_.path, line) + "time " + fmt(t) + " s is not after the previous " +
+      throw InputError(where(info_.path, line_of()) + "time " + fmt(t) + " s is not after the previous " +
                        fmt(t_last_) + " s; expected strictly increasing time");
     const double step = t - t_last_;
     if (k >= 2 && std::fabs(step - dt_nominal_) > opts_.jitter_tolerance * dt_nominal_) {
@@ -508,7 +782,7 @@ class CsvReader final : public RecordReader {
       const auto quantum = [&](std::string_view s) { return std::pow(10.0, -printed_places(s)) * time_scale_; };
       const double q = std::max(quantum({fb, static_cast<std::size_t>(fe - fb)}), quantum({prev_text_.data(), prev_len_}));
       if (std::fabs(step - dt_nominal_) > opts_.jitter_tolerance * dt_nominal_ + q)
-        throw InputError(where(info_.path, line) + "time step " + fmt(step) + " s (at " + fmt(t) +
+        throw InputError(where(info_.path, line_of()) + "time step " + fmt(step) + " s (at " + fmt(t) +
                          " s); expected " + fmt(dt_nominal_) + " s within " +
                          fmt(opts_.jitter_tolerance * 100) +
                          " % (sampling must be uniform; resample the log, or give --rate HZ to "
@@ -526,8 +800,10 @@ class CsvReader final : public RecordReader {
     return b;
   }
 
-  void parse_row(const char* b, const char* e, std::vector<std::vector<double>>& out, std::size_t n, long line) {
-    rows_in_block_ = n;
+  // Parses the fields of one data row into out[slot][n] and the time stamp
+  // into rt; throws InputError naming `line`.
+  void parse_fields(const char* b, const char* e, std::vector<std::vector<double>>& out, std::size_t n, long line,
+                    RowTime& rt) const {
     std::size_t col = 0;
     const char* p = b;
     const char* tb = nullptr;
@@ -579,7 +855,7 @@ class CsvReader final : public RecordReader {
     if (col != ncols_)
       throw InputError(where(info_.path, line) + std::to_string(col) + " fields; expected " +
                        std::to_string(ncols_) + " as in the header on line " + std::to_string(header_line_));
-    if (tb) check_time(t, tb, te, line);
+    if (tb) rt = {t, tb, te};
   }
 
   ReadOptions opts_;
@@ -602,7 +878,14 @@ class CsvReader final : public RecordReader {
   double t_first_ = 0, t_last_ = 0, dt_nominal_ = 0;
   std::array<char, 48> prev_text_{};  // previous time stamp as printed
   std::size_t prev_len_ = 0;
-  std::size_t rows_in_block_ = 0;
+  std::size_t time_rows_ = 0;  // rows whose time stamp has been checked
+  std::vector<Piece> pieces_;  // the parsed chunk: npieces_ pieces, delivered from cur_piece_, cur_row_
+  std::size_t npieces_ = 0, cur_piece_ = 0, cur_row_ = 0;
+  std::unique_ptr<WorkPool> pool_;  // helper threads, started at the first chunk worth splitting
+  std::size_t threads_ = 1;  // parse threads
+  std::size_t chunk_ = kChunk;  // bytes parsed per step
+  static constexpr std::size_t kNone = static_cast<std::size_t>(-1);
+  std::size_t nul_ = kNone;  // index in buf_ of the first NUL byte read
 
   void detect_decimal_comma() {
     if (delim_ == ',') return;

@@ -363,11 +363,8 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   std::size_t limit = static_cast<std::size_t>(-1);
   if (o.holdout_fraction > 0)
     limit = static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(reader.count_frames())));
-  auto next_block = [&]() -> std::size_t {
-    if (samples >= limit) return 0;
-    std::size_t n = reader.read_block(std::min(o.block_frames, limit - samples), block);
-    return n;
-  };
+  BlockPrefetcher prefetcher(reader, o.block_frames, limit, o.prefetch);
+  auto next_block = [&]() -> std::size_t { return prefetcher.next(block); };
   if (periodic) {
     PeriodicAccumulator acc(period, 2, o.skip_periods);
     // for harmonic distortion: the first period that is averaged

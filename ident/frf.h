@@ -59,6 +59,8 @@ struct FrfOptions {
   double confidence = 0.95;     // level of the zero-coherence bound, in [0.5, 0.9999]
   bool loop_gain = false;       // injection measurement: report L = -G_ry/G_ru (needs reference)
   std::size_t block_frames = 65536;  // frames read at a time (memory, not results)
+  bool prefetch = true;         // read the record on a background thread while the spectra are
+                                // computed (speed, not results: the same blocks in the same order)
   double holdout_fraction = 0;  // in [0, 0.9]: the last part of the record is left out (for validation
                                 // with replay --split)
 };

@@ -1,5 +1,12 @@
 #include "ident/record.h"
 
+#include <condition_variable>
+#include <deque>
+#include <exception>
+#include <mutex>
+#include <system_error>
+#include <thread>
+
 #include <fcntl.h>
 #include <unistd.h>
 
@@ -90,6 +97,97 @@ std::unique_ptr<RecordReader> open_record(const std::string& path, const ReadOpt
     return detail::open_sound(path, opts);
   }
   return detail::open_csv(path, opts);
+}
+
+struct BlockPrefetcher::State {
+  struct Block {
+    std::size_t frames = 0;
+    std::vector<std::vector<double>> data;
+  };
+  static constexpr std::size_t kDepth = 3;  // blocks read ahead at most
+  std::mutex m;
+  std::condition_variable cv;
+  std::deque<Block> full;
+  std::vector<Block> spare;
+  bool done = false, stop = false;
+  std::exception_ptr error;
+  std::thread thread;
+};
+
+BlockPrefetcher::BlockPrefetcher(RecordReader& reader, std::size_t block_frames, std::size_t limit, bool threaded)
+    : reader_(reader), block_frames_(std::max<std::size_t>(block_frames, 1)), limit_(limit) {
+  if (!threaded) return;
+  state_ = std::make_unique<State>();
+  State& s = *state_;
+  try {
+    s.thread = std::thread([this, &s] {
+      for (;;) {
+        State::Block b;
+        {
+          std::lock_guard<std::mutex> lk(s.m);
+          if (!s.spare.empty()) b = std::move(s.spare.back()), s.spare.pop_back();
+        }
+        std::exception_ptr err;
+        try {
+          b.frames = read_direct(b.data);
+        } catch (...) {
+          err = std::current_exception();
+        }
+        std::unique_lock<std::mutex> lk(s.m);
+        if (err || b.frames == 0) {
+          s.error = err;
+          s.done = true;
+          s.cv.notify_all();
+          return;
+        }
+        s.full.push_back(std::move(b));
+        s.cv.notify_all();
+        s.cv.wait(lk, [&] { return s.full.size() < State::kDepth || s.stop; });
+        if (s.stop) return;
+      }
+    });
+  } catch (const std::system_error&) {
+    state_.reset();  // no thread to be had: read on the caller's thread
+  }
+}
+
+BlockPrefetcher::~BlockPrefetcher() {
+  if (!state_) return;
+  {
+    std::lock_guard<std::mutex> lk(state_->m);
+    state_->stop = true;
+  }
+  state_->cv.notify_all();
+  state_->thread.join();
+}
+
+std::size_t BlockPrefetcher::read_direct(std::vector<std::vector<double>>& out) {
+  if (read_ >= limit_) return 0;
+  const std::size_t n = reader_.read_block(std::min(block_frames_, limit_ - read_), out);
+  read_ += n;
+  return n;
+}
+
+std::size_t BlockPrefetcher::next(std::vector<std::vector<double>>& out) {
+  if (!state_) return read_direct(out);
+  State& s = *state_;
+  std::unique_lock<std::mutex> lk(s.m);
+  s.cv.wait(lk, [&] { return !s.full.empty() || s.done; });
+  if (s.full.empty()) {
+    if (s.error) {
+      auto e = s.error;
+      s.error = nullptr;
+      std::rethrow_exception(e);
+    }
+    return 0;
+  }
+  State::Block b = std::move(s.full.front());
+  s.full.pop_front();
+  const std::size_t frames = b.frames;
+  std::swap(out, b.data);
+  s.spare.push_back(std::move(b));  // the caller's old buffers, to be filled again
+  s.cv.notify_all();
+  return frames;
 }
 
 Record read_record(const std::string& path, const ReadOptions& opts) {

@@ -40,6 +40,9 @@ struct ReadOptions {
                                    // nominal step (plus the printed resolution of the time values)
   double fallback_rate_hz = 0;  // > 0: the rate of a CSV log with neither time column nor rate comment
                                 // (e.g. from the excitation's sidecar)
+  std::size_t threads = 0;      // CSV parse threads: 0 = one per core (at most 8), 1 = the calling
+                                // thread only; values and errors do not depend on it
+  std::size_t chunk_bytes = 1u << 20;  // CSV text parsed per step (memory and speed, not results); >= 64
 };
 
 class RecordReader {
@@ -83,6 +86,31 @@ class RecordReader {
 // Opens a recording. The format is told from the content, not the name:
 // RIFF/RF64/FORM/fLaC/OggS/... headers go to libsndfile, text to the CSV reader.
 std::unique_ptr<RecordReader> open_record(const std::string& path, const ReadOptions& opts = {});
+
+// Reads the blocks of a RecordReader on a background thread, a few blocks
+// ahead of the consumer, so that parsing or decoding overlaps the consumer's
+// work. Blocks come in order with the sizes direct read_block() calls would
+// give, so results do not depend on it; a reader error is raised by next()
+// at the point of the stream where the reader met it. The reader must not be
+// used by anyone else until next() has returned 0 or the prefetcher is gone.
+class BlockPrefetcher {
+ public:
+  // limit: most frames read in all; threaded = false reads on the caller's thread.
+  BlockPrefetcher(RecordReader& reader, std::size_t block_frames,
+                  std::size_t limit = static_cast<std::size_t>(-1), bool threaded = true);
+  ~BlockPrefetcher();  // stops the thread and waits for it
+  BlockPrefetcher(const BlockPrefetcher&) = delete;
+  BlockPrefetcher& operator=(const BlockPrefetcher&) = delete;
+  // The next block into out[c][n]; returns its frames, 0 at the end.
+  std::size_t next(std::vector<std::vector<double>>& out);
+
+ private:
+  struct State;
+  std::size_t read_direct(std::vector<std::vector<double>>& out);
+  RecordReader& reader_;
+  std::size_t block_frames_, limit_, read_ = 0;
+  std::unique_ptr<State> state_;  // null when not threaded
+};
 
 // A whole recording in memory.
 struct Record {
