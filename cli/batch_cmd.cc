@@ -196,7 +196,8 @@ ojson analyse(const Unit& u, ojson& line, bool& pass, std::size_t read_threads) 
   if (!get("delay").empty()) fit_args.delay = get("delay");
   if (!get("band").empty()) fit_args.band = get("band");
   if (!get("integrators").empty()) fit_args.integrators = static_cast<int>(parse_number(get("integrators"), "integrators"));
-  const fit::FitOptions fo = fit_options(fit_args);
+  fit::FitOptions fo = fit_options(fit_args);
+  fo.threads = static_cast<int>(read_threads);  // one thread per unit when units run in parallel
   const ident::Frf frf = compute_frf(fa);
   const fit::FrfFit ft = fit_pipeline(frf, fit_args, fo);
   const fit::RationalModel& m = ft.result.model;

@@ -1,6 +1,10 @@
 #include "fit/fit_frf.h"
 
 #include <algorithm>
+#include <atomic>
+#include <exception>
+#include <system_error>
+#include <thread>
 #include <cmath>
 #include <cstdio>
 #include <numbers>
@@ -151,11 +155,40 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     // one line per real parameter (see vector_fit): 2 n + 2 <= lines
     const int limit = std::min(o.max_order, (static_cast<int>(out.data.freq_hz.size()) - 2) / 2);
     if (limit < 1) throw InputError(std::to_string(out.data.freq_hz.size()) + " lines are too few for any order");
+    // The orders are independent fits: they run on up to `threads` threads,
+    // each into its own slot, and are judged in order afterwards.
+    std::vector<FitResult> fits(static_cast<std::size_t>(limit));
+    std::vector<std::exception_ptr> errors(fits.size());
+    std::atomic<int> next{0};
+    auto work = [&] {
+      for (int i; (i = next.fetch_add(1)) < limit;) {
+        VectorFitOptions v = vo;
+        v.order = i + 1;
+        try {
+          fits[static_cast<std::size_t>(i)] = vector_fit(out.data, v);
+        } catch (...) {
+          errors[static_cast<std::size_t>(i)] = std::current_exception();
+        }
+      }
+    };
+    const int hw = static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+    const int n_threads = std::min(limit, o.threads > 0 ? o.threads : std::min(hw, 8));
+    std::vector<std::thread> pool;
+    for (int t = 1; t < n_threads; ++t) {
+      try {
+        pool.emplace_back(work);
+      } catch (const std::system_error&) {
+        break;  // fewer threads; this one does the rest
+      }
+    }
+    work();
+    for (auto& t : pool) t.join();
     int best_aic_order = 1, accepted = 0;
     double best_aic = 0;
     for (int n = 1; n <= limit; ++n) {
       vo.order = n;
-      const FitResult r = vector_fit(out.data, vo);
+      if (errors[static_cast<std::size_t>(n - 1)]) std::rethrow_exception(errors[static_cast<std::size_t>(n - 1)]);
+      const FitResult& r = fits[static_cast<std::size_t>(n - 1)];
       const double a = aic(r, out.data, params_of(vo));
       const bool pass = out.weighting == Weighting::inverse_variance && chi2_ok(r);
       out.sweep.push_back({n, r.chi2, a, r.nrmse, r.max_err_db, r.dof, r.converged, pass});

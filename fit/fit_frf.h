@@ -38,6 +38,8 @@ struct FitOptions {
   double band_lo_hz = 0, band_hi_hz = 0;  // 0: no limit
   double error_floor = 0.1;     // variance weights: eps floored at this fraction of the median
   bool polynomial = false;      // Sanathanan-Koerner on the polynomial form instead of vector fitting
+  int threads = 0;              // order "auto": orders fitted at once on separate threads; 0 = one per
+                                // core. Each order is fitted alone, so results do not depend on it.
 };
 
 struct OrderRow {

@@ -4,13 +4,20 @@
 // Prints: lines order iterations median_fit_ms ms_per_iteration nrmse
 // (a whole fit with default options, until it converges)
 // With DUMP.csv, writes the FRF (freq_hz,re,im) for a side-by-side run.
+//
+// Usage: benchid_bench_fit LINES sweep MAX_ORDER [REPEAT]
+// times the order sweep of `fit --order auto` (orders 1..MAX_ORDER, 1 %
+// error bars, variance weights) on one thread and on every core.
+// Prints: lines max_order chosen_order median_ms_one_thread median_ms_all_cores
 #include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <string>
 #include <vector>
 
+#include "fit/fit_frf.h"
 #include "fit/vector_fit.h"
 
 using namespace benchid::fit;
@@ -39,6 +46,38 @@ int main(int argc, char** argv) {
     d.freq_hz.push_back(f);
     d.h.push_back(t.response(f));
     d.weight.push_back(1.0 / std::abs(d.h.back()));
+  }
+  if (argc > 2 && std::string(argv[2]) == "sweep") {
+    const int max_order = argc > 3 ? std::atoi(argv[3]) : 40;
+    const int rep = argc > 4 ? std::atoi(argv[4]) : 3;
+    benchid::ident::Frf frf;
+    frf.rate_hz = 40000;
+    for (int k = 0; k < lines; ++k) {
+      frf.freq_hz.push_back(d.freq_hz[k]);
+      frf.h.push_back(d.h[k]);
+      frf.rel_err.push_back(0.01);
+      frf.coherence.push_back(0.99);
+      frf.reliable.push_back(true);
+    }
+    FitOptions fo;
+    fo.auto_order = true;
+    fo.max_order = max_order;
+    double med[2];
+    int chosen = 0;
+    for (int threads : {1, 0}) {
+      fo.threads = threads;
+      std::vector<double> t;
+      for (int i = 0; i < rep; ++i) {
+        const auto t0 = std::chrono::steady_clock::now();
+        const FrfFit f = fit_frf(frf, fo);
+        t.push_back(std::chrono::duration<double, std::milli>(std::chrono::steady_clock::now() - t0).count());
+        chosen = static_cast<int>(f.result.model.poles.size());
+      }
+      std::sort(t.begin(), t.end());
+      med[threads == 1 ? 0 : 1] = t[t.size() / 2];
+    }
+    std::printf("%d %d %d %.1f %.1f\n", lines, max_order, chosen, med[0], med[1]);
+    return 0;
   }
   if (argc > 4) {
     std::FILE* out = std::fopen(argv[4], "w");

@@ -5,13 +5,15 @@ Run on demand (needs the build; Debian's python3-numpy):
     /usr/bin/python3 tests/bench/fit_bench.py [--build build] [--repeat 5]
 
 For 1k, 5k and 20k lines of the same synthetic order-30 FRF (written by
-benchid_bench_fit), it times a whole benchid fit (relaxed vector fitting with
-default options, until it converges; in-process, one core) and 10 iterations
-of a plain NumPy version of the same real-valued iteration
-(numpy.linalg.lstsq with column scaling; classic, not relaxed: the same
-matrix size), both on one thread. It prints medians, benchid's time per
-line (flat when the cost is linear in lines) and the ratio of the time per
-iteration.
+benchid_bench_fit), and for 5k lines at orders 10, 30 and 60, it times a
+whole benchid fit (relaxed vector fitting with default options, until it
+converges or 50 iterations; in-process, one core) and 10 iterations of a
+plain NumPy version of the same real-valued iteration (numpy.linalg.lstsq
+with column scaling; classic, not relaxed: the same matrix size), both on
+one thread. It prints medians, benchid's time per line (flat when the cost
+is linear in lines) and the ratio of the time per iteration. Last, the
+order sweep of `fit --order auto` (orders 1..40 on 5k lines) on one thread
+and on every core.
 """
 import argparse
 import os
@@ -63,14 +65,14 @@ def main():
     ap.add_argument("--repeat", type=int, default=5)
     a = ap.parse_args()
     exe = os.path.abspath(os.path.join(a.build, "tests", "bench", "benchid_bench_fit"))
-    print(f"vector fitting at order 30, medians of {a.repeat}; NumPy {np.__version__}; one thread each")
-    print(f"{'lines':>6} | {'benchid fit ms':>14} {'iters':>5} {'ms/iter':>8} {'us/line':>8} | {'numpy 10 iters ms':>17} "
-          f"{'ms/iter':>8} | ratio/iter")
+    print(f"vector fitting of an order-30 plant, medians of {a.repeat}; NumPy {np.__version__}; one thread each")
+    print(f"{'lines':>6} {'order':>5} | {'benchid fit ms':>14} {'iters':>5} {'ms/iter':>8} {'us/line':>8} | "
+          f"{'numpy 10 iters ms':>17} {'ms/iter':>8} | ratio/iter")
     env = dict(os.environ, OPENBLAS_NUM_THREADS="1", OMP_NUM_THREADS="1")
     with tempfile.TemporaryDirectory() as d:
-        for lines in (1000, 5000, 20000):
+        for lines, order in ((1000, 30), (5000, 30), (20000, 30), (5000, 10), (5000, 60)):
             dump = os.path.join(d, "frf.csv")
-            out = subprocess.run([exe, str(lines), "30", str(a.repeat), dump], capture_output=True, text=True,
+            out = subprocess.run([exe, str(lines), str(order), str(a.repeat), dump], capture_output=True, text=True,
                                  check=True, env=env).stdout.split()
             b_iters, b_ms, b_it = int(out[2]), float(out[3]), float(out[4])
             data = np.loadtxt(dump, delimiter=",")
@@ -79,15 +81,19 @@ def main():
             w = 1 / np.abs(f)
             times = []
             for _ in range(a.repeat):
-                beta = 2 * np.pi * np.logspace(0, 4, 15)
+                beta = 2 * np.pi * np.logspace(0, 4, order // 2)
                 poles = np.concatenate([-beta / 100 + 1j * beta])
                 t0 = time.perf_counter()
                 for _ in range(10):
                     poles = numpy_vf_iteration(s, f, w, poles)
                 times.append((time.perf_counter() - t0) * 1e3)
             p_ms = statistics.median(times)
-            print(f"{lines:>6} | {b_ms:>14.2f} {b_iters:>5} {b_it:>8.3f} {b_ms / lines * 1e3:>8.2f} | {p_ms:>17.2f} "
+            print(f"{lines:>6} {order:>5} | {b_ms:>14.2f} {b_iters:>5} {b_it:>8.3f} {b_ms / lines * 1e3:>8.2f} | {p_ms:>17.2f} "
                   f"{p_ms / 10:>8.3f} | {b_it / (p_ms / 10):.2f}", flush=True)
+    out = subprocess.run([exe, "5000", "sweep", "40", str(max(1, a.repeat // 2))], capture_output=True, text=True,
+                         check=True).stdout.split()
+    print(f"order sweep 1..{out[1]} on {out[0]} lines (chose {out[2]} poles): one thread {float(out[3]):.0f} ms, "
+          f"all {os.cpu_count()} cores {float(out[4]):.0f} ms (ratio {float(out[4]) / float(out[3]):.2f})")
 
 
 if __name__ == "__main__":

@@ -6,6 +6,7 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <cstring>
 #include <fstream>
 #include <sstream>
 
@@ -324,6 +325,38 @@ TEST(FitFrf, AutoOrderFindsTheTrueOrderAtTheNoiseLevel) {
   EXPECT_EQ(f.result.model.poles.size(), 3u);
   ASSERT_EQ(f.sweep.size(), 8u);
   EXPECT_FALSE(f.sweep[1].accepted);  // order 2 cannot hold both pairs and the real pole
+}
+
+// The orders of the sweep are fitted on several threads; each is a fit of
+// its own, so the table and the chosen model must not change by one bit.
+TEST(FitFrf, OrderSweepOnSeveralThreadsIsBitIdenticalToOne) {
+  const RationalModel t = two_mass(0.08, 22, 0.03, 31, 0.04, 40);
+  Gaussian g(7);
+  const benchid::ident::Frf frf = as_frf(sample(t, 0.5, 250, 400), 0.01, &g);
+  FitOptions o;
+  o.auto_order = true;
+  o.max_order = 9;
+  o.vf.proper = false;
+  o.threads = 1;
+  const FrfFit one = fit_frf(frf, o);
+  for (int threads : {2, 3, 8}) {
+    o.threads = threads;
+    const FrfFit many = fit_frf(frf, o);
+    ASSERT_EQ(many.sweep.size(), one.sweep.size());
+    for (std::size_t i = 0; i < one.sweep.size(); ++i) {
+      EXPECT_EQ(std::memcmp(&many.sweep[i].chi2, &one.sweep[i].chi2, sizeof(double)), 0) << "order " << i + 1;
+      EXPECT_EQ(std::memcmp(&many.sweep[i].aic, &one.sweep[i].aic, sizeof(double)), 0) << "order " << i + 1;
+      EXPECT_EQ(many.sweep[i].accepted, one.sweep[i].accepted);
+    }
+    ASSERT_EQ(many.result.model.poles.size(), one.result.model.poles.size());
+    EXPECT_EQ(std::memcmp(many.result.model.poles.data(), one.result.model.poles.data(),
+                          one.result.model.poles.size() * sizeof(cplx)),
+              0)
+        << threads << " threads";
+    EXPECT_EQ(std::memcmp(many.result.model.residues.data(), one.result.model.residues.data(),
+                          one.result.model.residues.size() * sizeof(cplx)),
+              0);
+  }
 }
 
 TEST(FitFrf, ReflectsUnstablePolesUnlessAllowed) {
