@@ -81,7 +81,9 @@ class SoundReader final : public RecordReader {
     }
     info_.format = major_name(sfi.format);
     info_.rate_hz = opts.rate_hz > 0 ? opts.rate_hz : sfi.samplerate;
-    info_.frames = static_cast<std::size_t>(sfi.frames);
+    // A stream whose length was not written (a FLAC encoder stopped early, or
+    // a pipe) reports the largest count: the length is then unknown.
+    if (sfi.frames >= 0 && sfi.frames < SF_COUNT_MAX) info_.frames = static_cast<std::size_t>(sfi.frames);
     nch_ = static_cast<std::size_t>(sfi.channels);
     for (std::size_t c = 0; c < nch_; ++c) info_.channels.push_back({"ch" + std::to_string(c + 1), "FS"});
     full_scale_ = full_scale(sfi.format);
@@ -117,11 +119,25 @@ class SoundReader final : public RecordReader {
       throw InputError(where(info_.path) + "sound file ends after " + std::to_string(frames_read_) +
                        " frames; its header promises " + std::to_string(*info_.frames) +
                        " (the file is truncated)");
+    if (n == 0 && !info_.frames && frames_read_ == 0)
+      throw InputError(where(info_.path) + "no audio frames could be decoded (the header gives no length and "
+                       "the data is missing or damaged); expected a complete sound file");
     if (n == 0) report_clipping();
     return n;
   }
 
-  std::size_t count_frames() override { return *info_.frames; }
+  std::size_t count_frames() override {
+    if (info_.frames) return *info_.frames;
+    // length unknown: decode a second handle to the end and count
+    SF_INFO sfi{};
+    SNDFILE* sf = sf_open(info_.path.c_str(), SFM_READ, &sfi);
+    if (!sf) throw InputError(where(info_.path) + "cannot reopen the sound file: " + sf_strerror(nullptr));
+    std::vector<double> buf(static_cast<std::size_t>(sfi.channels) * 65536);
+    std::size_t total = 0;
+    for (sf_count_t g; (g = sf_readf_double(sf, buf.data(), 65536)) > 0;) total += static_cast<std::size_t>(g);
+    sf_close(sf);
+    return total;
+  }
 
  private:
   void report_clipping() {

@@ -118,6 +118,7 @@ void write_sound(const std::string& path, std::size_t n, int format) {
     std::fprintf(stderr, "cannot write %s: %s\n", path.c_str(), sf_strerror(nullptr));
     std::exit(1);
   }
+  sf_command(sf, SFC_SET_CLIPPING, nullptr, SF_TRUE);  // the rare |x| > 1 clips instead of wrapping
   std::vector<double> frames(2 * 65536);
   Source src;
   for (std::size_t i = 0; i < n;) {

@@ -114,6 +114,31 @@ TEST(SoundReader, ReadsOddLengthDataChunkAndRefusesTruncatedFlac) {
   }
 }
 
+// Found by the scaling benchmark: libsndfile's FLAC encoder stops at a
+// sample beyond full scale (unless clipping is on) and leaves a header with
+// no length and no frames. Its "length" then reads as the largest count; the
+// reader must say that nothing could be decoded, not quote that count.
+TEST(SoundReader, RefusesFlacWithoutLengthOrFramesPlainly) {
+  TempDir d;
+  SF_INFO info{};
+  info.samplerate = 10000;
+  info.channels = 2;
+  info.format = SF_FORMAT_FLAC | SF_FORMAT_PCM_24;
+  SNDFILE* f = sf_open(d.file("empty.flac").c_str(), SFM_WRITE, &info);
+  ASSERT_NE(f, nullptr);
+  std::vector<double> x(2 * 5000, 1.5);  // beyond full scale
+  sf_writef_double(f, x.data(), 5000);
+  sf_close(f);
+  try {
+    read_record(d.file("empty.flac"));
+    FAIL() << "no error";
+  } catch (const benchid::InputError& e) {
+    const std::string m = e.what();
+    EXPECT_NE(m.find("no audio frames could be decoded"), std::string::npos) << m;
+    EXPECT_EQ(m.find("9223372036854775807"), std::string::npos) << m;
+  }
+}
+
 TEST(SoundReader, RefusesFileWithLyingHeader) {
   TempDir d;
   const auto p = d.write("e.wav", std::string("RIFF\x24\x00\x00\x00WAVEjunkjunkjunk", 24));
