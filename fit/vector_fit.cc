@@ -98,7 +98,17 @@ void basis(const std::vector<cplx>& poles, cplx s, std::vector<cplx>& phi) {
 // Householder QR, or, when `rough` (poles still far from their places, so the
 // answer is only a step), by the normal equations at a third of the cost,
 // falling back to QR if their Cholesky factorisation fails.
-Vec solve_scaled(Mat& a, const Vec& y, bool rough = false) {
+// Storage kept across the iterations of one fit, so that the large
+// least-squares matrix and the QR factorisation's copy of it are allocated
+// once, not once per iteration (on a 5000-line order-60 fit each is 20 MB,
+// and fresh pages cost more than the arithmetic).
+struct Workspace {
+  Mat a;
+  Vec y;
+  Eigen::ColPivHouseholderQR<Mat> qr;
+};
+
+Vec solve_scaled(Mat& a, const Vec& y, bool rough = false, Eigen::ColPivHouseholderQR<Mat>* qr = nullptr) {
   Vec scale(a.cols());
   for (Eigen::Index j = 0; j < a.cols(); ++j) {
     const double n = a.col(j).norm();
@@ -116,7 +126,10 @@ Vec solve_scaled(Mat& a, const Vec& y, bool rough = false) {
       done = x.allFinite();
     }
   }
-  if (!done) x = a.colPivHouseholderQr().solve(y);
+  if (!done) {
+    if (qr) x = qr->compute(a).solve(y);
+    else x = a.colPivHouseholderQr().solve(y);
+  }
   Vec unscaled = x.cwiseProduct(scale);
   for (Eigen::Index j = 0; j < a.cols(); ++j) a.col(j) /= scale(j);
   return unscaled;
@@ -192,7 +205,7 @@ void fit_residues(const Prepared& p, const std::vector<cplx>& poles, const Vecto
 
 // One pole relocation; returns the new poles.
 std::vector<cplx> relocate(const Prepared& p, const std::vector<cplx>& poles, const VectorFitOptions& o, int* reflected,
-                           double* residual, bool rough) {
+                           double* residual, bool rough, Workspace& ws) {
   std::vector<cplx> phi;
   basis(poles, p.s[0], phi);
   const auto n = static_cast<Eigen::Index>(phi.size());
@@ -200,8 +213,10 @@ std::vector<cplx> relocate(const Prepared& p, const std::vector<cplx>& poles, co
   const Eigen::Index cols = num_cols + n + 1;  // + sigma's c~ and d~
   const auto lines = p.s.size();
   const auto rows = static_cast<Eigen::Index>(2 * lines + 1);
-  Mat a = Mat::Zero(rows, cols);
-  Vec y = Vec::Zero(rows);
+  Mat& a = ws.a;
+  a.setZero(rows, cols);  // no new storage when the size is unchanged
+  Vec& y = ws.y;
+  y.setZero(rows);
   double wg = 0;
   for (std::size_t k = 0; k < lines; ++k) wg += std::norm(p.w[k] * p.g[k]);
   const double relax_w = std::sqrt(wg) / static_cast<double>(lines);
@@ -231,7 +246,7 @@ std::vector<cplx> relocate(const Prepared& p, const std::vector<cplx>& poles, co
     a(rows - 1, cs) += relax_w;
   }
   y(rows - 1) = relax_w * static_cast<double>(lines);
-  Vec x = solve_scaled(a, y, rough);
+  Vec x = solve_scaled(a, y, rough, &ws.qr);
   *residual = (a * x - y).norm();
   Vec ct = x.segment(num_cols, n);
   double dt = x(cols - 1);
@@ -333,12 +348,13 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
     poles = canonical(poles, false, nullptr, Domain::z);
   }
   FitResult r;
+  Workspace ws;
   int reflected = 0, still = 0;
   double last_res = -1, last_move = 1.0;
   for (int it = 0; it < o.max_iterations; ++it) {
     int refl_now = 0;
     double res = 0;
-    std::vector<cplx> next = relocate(p, poles, o, &refl_now, &res, last_move > 1e-2);
+    std::vector<cplx> next = relocate(p, poles, o, &refl_now, &res, last_move > 1e-2, ws);
     double move = 0;
     if (next.size() == poles.size()) {
       for (std::size_t i = 0; i < next.size(); ++i)
@@ -365,6 +381,7 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
       break;
     }
   }
+  ws = Workspace();  // freed before the residue fit allocates its own matrix
   fit_residues(p, poles, o, r.model);
   r.model.integrators = o.integrators;
   r.model.delay_s = o.delay_s;
