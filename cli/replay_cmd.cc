@@ -42,6 +42,37 @@ struct ReplayArgs {
   bool strict = false;
   std::string hold = "measured";
   double split = 0;
+  std::size_t stream_above = fit::StreamReplayOptions{}.in_memory_limit;
+};
+
+// The input and output channels of a recording, block by block, for
+// replay_stream (which opens it twice). The rate, final at the end of a
+// pass, is shared with whoever writes the time column.
+class RecordSource final : public fit::ReplaySource {
+ public:
+  RecordSource(const std::string& record, const std::string& input, const std::string& output,
+               const ident::ReadOptions& ro, std::shared_ptr<double> rate)
+      : reader_(ident::open_record(record, ro)), rate_(std::move(rate)) {
+    const std::size_t iu = reader_->channel_index(input), iy = reader_->channel_index(output);
+    if (iu == iy) throw InputError(record + ": input and output are the same channel; expected two channels");
+    reader_->select({iu, iy});
+  }
+  std::size_t next(std::vector<double>& u, std::vector<double>& y) override {
+    const std::size_t n = reader_->read_block(1 << 16, block_);
+    if (n == 0) {
+      *rate_ = reader_->rate_hz();
+      return 0;
+    }
+    std::swap(u, block_[0]);
+    std::swap(y, block_[1]);
+    return n;
+  }
+  double rate_hz() const override { return reader_->rate_hz(); }
+
+ private:
+  std::unique_ptr<ident::RecordReader> reader_;
+  std::vector<std::vector<double>> block_;
+  std::shared_ptr<double> rate_;
 };
 
 void run_replay(const ReplayArgs& a) {
@@ -49,9 +80,6 @@ void run_replay(const ReplayArgs& a) {
   const fit::RationalModel m = fit::read_model_json(a.model);
   ident::ReadOptions ro;
   ro.rate_hz = a.rate_hz;
-  const ChannelPair rec = read_channel_pair(a.record, a.input, a.output, ro);
-  const std::vector<double>& u = rec.u;
-  const std::vector<double>& y = rec.y;
   fit::ReplayOptions o;
   if (a.lags < 1 || a.lags > 10000) throw InputError("--lags " + std::to_string(a.lags) + ": expected 1 to 10000");
   if (!(a.practical > 0 && a.practical < 1)) throw InputError("--practical " + fmt_num(a.practical) + ": expected a value in (0, 1)");
@@ -60,33 +88,65 @@ void run_replay(const ReplayArgs& a) {
   if (a.hold != "measured" && a.hold != "zoh") throw InputError("--hold '" + a.hold + "' is unknown; expected measured or zoh");
   o.hold = a.hold == "zoh" ? fit::Hold::zoh : fit::Hold::as_measured;
   o.practical = a.practical;
-  const double rate = rec.rate_hz;
-  const fit::ReplayResult r = fit::replay(m, u, y, rate, o);
-  std::cout << "benchid replay: " << a.model << " on " << a.record << " (" << u.size() << " samples at " << fmt_num(rate)
-            << " Hz; " << (r.hold == fit::Hold::zoh ? "input held between samples" : "model response applied to the samples")
-            << ")\n"
-            << "  " << r.verdict << "\n"
-            << "  left out: the first " << r.settle << " samples (" << fmt_num(static_cast<double>(r.settle) / rate)
-            << (a.split > 0 ? " s: the part used for fitting, --split" : " s: the model starts at rest")
-            << "); means removed from input and output\n"
-            << "  residual independence, " << r.samples << " samples, lags 1.." << a.lags << " (whiteness) and -"
-            << a.lags << ".." << a.lags << " (input): 99 % bounds " << fmt_num(r.whiteness.bound) << " and "
-            << fmt_num(r.cross.bound) << "; a lag fails above max(bound, " << fmt_num(a.practical)
-            << ") and a test allows 1 % of its lags (at least 1)\n"
-            << "  match % = 100 (1 - ||y - y_model|| / ||y - mean y||); measurement noise and content outside the "
-               "model's band lower it\n";
-  if (!a.out.empty()) {
-    std::ostringstream s;
-    s << "# benchid replay: " << r.verdict << "\ntime_s,measured,simulated,residual\n";
-    char b[128];
-    for (std::size_t k = 0; k < u.size(); ++k) {
-      std::snprintf(b, sizeof b, "%.10g,%.10g,%.10g,%.10g\n", static_cast<double>(k) / rate, y[k], r.simulated[k],
-                    y[k] - r.simulated[k]);
-      s << b;
-    }
-    write_file_atomically(a.out, s.str());
-    std::cout << "  wrote " << a.out << "\n";
+  fit::StreamReplayOptions so;
+  so.in_memory_limit = a.stream_above;
+  auto rate = std::make_shared<double>(0.0);
+  // The per-sample CSV is written as the record is replayed, to a temporary
+  // file renamed into place only when the replay has succeeded.
+  std::unique_ptr<PendingFile> pending;
+  std::FILE* csv = nullptr;
+  if (!a.out.empty() && a.out != "-") {
+    pending = std::make_unique<PendingFile>(a.out);
+    csv = std::fopen(pending->temp_path().c_str(), "w");
+    if (!csv) throw InputError("cannot write '" + a.out + "'");
+  } else if (a.out == "-") {
+    csv = stdout;
   }
+  struct Closer {
+    std::FILE*& f;
+    ~Closer() {
+      if (f && f != stdout) std::fclose(f);
+    }
+  } closer{csv};
+  if (csv)
+    std::fprintf(csv, "# benchid replay of %s on %s; the verdict is the last line\ntime_s,measured,simulated,residual\n",
+                 a.model.c_str(), a.record.c_str());
+  fit::ReplaySink sink;
+  if (csv)
+    sink = [&](std::size_t first, const std::vector<double>& y, const std::vector<double>& ys) {
+      for (std::size_t k = 0; k < y.size(); ++k)
+        std::fprintf(csv, "%.10g,%.10g,%.10g,%.10g\n", static_cast<double>(first + k) / *rate, y[k], ys[k], y[k] - ys[k]);
+    };
+  const fit::ReplayResult r = fit::replay_stream(
+      m, [&] { return std::make_unique<RecordSource>(a.record, a.input, a.output, ro, rate); }, o, so, sink);
+  const std::size_t n = r.settle + r.samples;
+  const double rt = *rate;
+  if (csv) {
+    std::fprintf(csv, "# verdict: %s\n", r.verdict.c_str());
+    if (csv != stdout) {
+      const bool ok = std::fflush(csv) == 0 && !std::ferror(csv);
+      std::fclose(csv);
+      csv = nullptr;
+      if (!ok) throw InputError("cannot write '" + a.out + "' (disk full?)");
+      pending->commit();
+    }
+  }
+  std::ostream& info = a.out == "-" ? std::cerr : std::cout;
+  info << "benchid replay: " << a.model << " on " << a.record << " (" << n << " samples at " << fmt_num(rt)
+       << " Hz; " << (r.hold == fit::Hold::zoh ? "input held between samples" : "model response applied to the samples")
+       << (r.streamed ? "; streamed in two passes" : "") << ")\n"
+       << "  " << r.verdict << "\n";
+  if (!r.note.empty()) info << "  note: " << r.note << "\n";
+  info << "  left out: the first " << r.settle << " samples (" << fmt_num(static_cast<double>(r.settle) / rt)
+       << (a.split > 0 ? " s: the part used for fitting, --split" : " s: the model starts at rest")
+       << "); means removed from input and output\n"
+       << "  residual independence, " << r.samples << " samples, lags 1.." << a.lags << " (whiteness) and -"
+       << a.lags << ".." << a.lags << " (input): 99 % bounds " << fmt_num(r.whiteness.bound) << " and "
+       << fmt_num(r.cross.bound) << "; a lag fails above max(bound, " << fmt_num(a.practical)
+       << ") and a test allows 1 % of its lags (at least 1)\n"
+       << "  match % = 100 (1 - ||y - y_model|| / ||y - mean y||); measurement noise and content outside the "
+          "model's band lower it\n";
+  if (!a.out.empty() && a.out != "-") info << "  wrote " << a.out << "\n";
   if (a.strict && !(r.whiteness.pass && r.cross.pass)) std::exit(3);
 }
 
@@ -110,9 +170,12 @@ void add_replay_command(CLI::App& app) {
   c->add_option("--lags", a->lags, "Lags of the correlation tests (default 25)");
   c->add_option("--practical", a->practical, "Correlations below this never fail a lag, so long records are not "
                 "failed for negligible correlation (default 0.1)");
-  c->add_option("-o,--out", a->out, "CSV of time, measured, simulated and residual output");
+  c->add_option("-o,--out", a->out, "CSV of time, measured, simulated and residual output, written as the record is "
+                "replayed ('-': stdout); the verdict is its last line");
   c->add_option("--split", a->split, "Score only the last fraction F of the record: the part that 'frf --split F' "
                 "left out of the estimate, so the model is validated on data it was not fitted to (default 0: all)");
+  c->add_option("--stream-above", a->stream_above, "Records longer than this many samples are replayed in two "
+                "streaming passes in bounded memory instead of being held whole (default 4194304, about 250 MB held)");
   c->add_flag("--strict", a->strict, "Exit status 3 when the residual-independence verdict fails");
   c->callback([a] { run_replay(*a); });
 }

@@ -8,6 +8,7 @@
 #include <sstream>
 
 #include "fit/detail/hold.h"
+#include "fit/detail/replay.h"
 #include "ident/error.h"
 
 namespace benchid::fit {
@@ -33,6 +34,9 @@ std::vector<double> correlation(const std::vector<double>& a, const std::vector<
   return r;
 }
 
+}  // namespace
+
+namespace detail {
 void judge(CorrelationTest& c, double practical) {
   c.threshold = std::max(c.bound, practical);
   c.failing = 0;
@@ -40,40 +44,55 @@ void judge(CorrelationTest& c, double practical) {
   c.allowed = std::max<std::size_t>(1, c.rho.size() / 100);
   c.pass = c.failing <= c.allowed;
 }
+}  // namespace detail
 
-}  // namespace
+namespace detail {
 
-std::vector<double> simulate(const RationalModel& m, const std::vector<double>& u, double rate_hz) {
+ZohSimulator::ZohSimulator(const RationalModel& m, double rate_hz) {
   if (m.domain != Domain::s) throw InputError("replay of a z-domain model is not supported yet; expected an s-domain model");
   if (m.proportional != 0) throw InputError("replay of an improper model (a term in s) is not possible: it differentiates the held input");
   const double ts = 1.0 / rate_hz;
-  const detail::EigenStateSpace ss = detail::to_eigen(m.state_space());
+  const EigenStateSpace ss = to_eigen(m.state_space());
   const Eigen::Index n = ss.a.rows();
-  const Mat& a = ss.a;
-  const Vec& b = ss.b;
-  const Vec& c = ss.c;
   const double samples_delay = m.delay_s * rate_hz;
-  const auto whole = static_cast<long>(std::floor(samples_delay + 1e-12));
-  const double frac = samples_delay - static_cast<double>(whole);
-  const auto [ad, bfull] = detail::hold(a, b, ts);
-  Vec b1 = bfull, b2 = Vec::Zero(n);
-  if (frac > 1e-12) {
-    const auto [ea, i1] = detail::hold(a, b, (1 - frac) * ts);
-    const auto [unused, i2] = detail::hold(a, b, frac * ts);
+  whole_ = static_cast<std::size_t>(std::floor(samples_delay + 1e-12));
+  frac_ = samples_delay - static_cast<double>(whole_);
+  auto [ad, bfull] = hold(ss.a, ss.b, ts);
+  ad_ = std::move(ad);
+  b1_ = bfull;
+  b2_ = Vec::Zero(n);
+  if (frac_ > 1e-12) {
+    const auto [ea, i1] = hold(ss.a, ss.b, (1 - frac_) * ts);
+    const auto [unused, i2] = hold(ss.a, ss.b, frac_ * ts);
     (void)unused;
-    b1 = i1;
-    b2 = ea * i2;
+    b1_ = i1;
+    b2_ = ea * i2;
   }
+  c_ = ss.c;
+  d_ = ss.d;
+  x_ = Vec::Zero(n);
+  line_.assign(whole_ + 2, 0.0);
+}
+
+double ZohSimulator::step(double u) {
+  // line_ holds the last whole_ + 2 inputs (zeros before the start), newest at head_
+  head_ = head_ + 1 == line_.size() ? 0 : head_ + 1;
+  line_[head_] = u;
+  const auto back = [&](std::size_t j) { return line_[(head_ + line_.size() - j) % line_.size()]; };
+  const double uk = back(whole_), uk1 = back(whole_ + 1);
+  // output at t_k: the direct term sees the input delayed by the whole delay
+  const double ud = frac_ > 1e-12 ? uk1 : uk;
+  const double y = c_.dot(x_) + d_ * ud;
+  x_ = ad_ * x_ + b1_ * uk + b2_ * uk1;
+  return y;
+}
+
+}  // namespace detail
+
+std::vector<double> simulate(const RationalModel& m, const std::vector<double>& u, double rate_hz) {
+  detail::ZohSimulator sim(m, rate_hz);
   std::vector<double> y(u.size());
-  Vec x = Vec::Zero(n);
-  auto input = [&](long k) { return k >= 0 && k < static_cast<long>(u.size()) ? u[static_cast<std::size_t>(k)] : 0.0; };
-  for (long k = 0; k < static_cast<long>(u.size()); ++k) {
-    const double uk = input(k - whole);
-    // output at t_k: the direct term sees the input delayed by the whole delay
-    const double ud = frac > 1e-12 ? input(k - whole - 1) : uk;
-    y[static_cast<std::size_t>(k)] = c.dot(x) + ss.d * ud;
-    x = ad * x + b1 * uk + b2 * input(k - whole - 1);
-  }
+  for (std::size_t k = 0; k < u.size(); ++k) y[k] = sim.step(u[k]);
   return y;
 }
 
@@ -116,17 +135,7 @@ ReplayResult replay(const RationalModel& m, const std::vector<double>& u_in, con
   ReplayResult r;
   r.hold = o.hold == Hold::as_measured && m.integrators == 0 ? Hold::as_measured : Hold::zoh;
   std::vector<double> ys = r.hold == Hold::as_measured ? simulate_as_measured(m, u, rate_hz) : simulate(m, u, rate_hz);
-  // leave out the start: the model starts at rest
-  double slowest = 0;
-  for (const cplx& p : m.poles) slowest = std::max(slowest, p.real() < 0 ? 1.0 / -p.real() : 0.0);
-  const double settle_s = std::max(o.settle_fraction * static_cast<double>(u.size()) / rate_hz,
-                                   o.settle_time_constants * slowest + m.delay_s);
-  r.settle = std::min(u.size() / 2, static_cast<std::size_t>(std::ceil(settle_s * rate_hz)));
-  if (o.holdout_fraction > 0) {
-    if (!(o.holdout_fraction <= 0.9)) throw InputError("split: the held-out fraction must be in (0, 0.9]");
-    // the simulation still runs from the start, so the state is right where scoring begins
-    r.settle = std::max(r.settle, static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(u.size()))));
-  }
+  r.settle = detail::settle_samples(m, u.size(), rate_hz, o);
   std::vector<double> e, ue, yv;
   double ee = 0, yy = 0, ym = 0;
   for (std::size_t k = r.settle; k < u.size(); ++k) ym += y[k];
@@ -143,15 +152,37 @@ ReplayResult replay(const RationalModel& m, const std::vector<double>& u_in, con
   const double sq = std::sqrt(static_cast<double>(r.samples));
   r.whiteness.rho = correlation(e, e, 1, lags);
   r.whiteness.bound = 2.576 / sq;
-  judge(r.whiteness, o.practical);
+  detail::judge(r.whiteness, o.practical);
   r.cross.rho = correlation(e, ue, -lags, lags);
   const std::vector<double> re = correlation(e, e, -lags, lags), ru = correlation(ue, ue, -lags, lags);
   double p = 0;
   for (std::size_t i = 0; i < re.size(); ++i) p += re[i] * ru[i];
   r.cross.bound = 2.576 * std::sqrt(std::max(p, 1e-12)) / sq;
-  judge(r.cross, o.practical);
+  detail::judge(r.cross, o.practical);
   r.simulated = ys;
   for (double& v : r.simulated) v += my;
+  detail::set_verdict(r);
+  return r;
+}
+
+namespace detail {
+
+std::size_t settle_samples(const RationalModel& m, std::size_t n, double rate_hz, const ReplayOptions& o) {
+  // leave out the start: the model starts at rest
+  double slowest = 0;
+  for (const cplx& p : m.poles) slowest = std::max(slowest, p.real() < 0 ? 1.0 / -p.real() : 0.0);
+  const double settle_s = std::max(o.settle_fraction * static_cast<double>(n) / rate_hz,
+                                   o.settle_time_constants * slowest + m.delay_s);
+  std::size_t settle = std::min(n / 2, static_cast<std::size_t>(std::ceil(settle_s * rate_hz)));
+  if (o.holdout_fraction > 0) {
+    if (!(o.holdout_fraction <= 0.9)) throw InputError("split: the held-out fraction must be in (0, 0.9]");
+    // the simulation still runs from the start, so the state is right where scoring begins
+    settle = std::max(settle, static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(n))));
+  }
+  return settle;
+}
+
+void set_verdict(ReplayResult& r) {
   std::ostringstream s;
   s.precision(4);
   s << "match " << r.match_pct << " % on " << r.samples << " samples; residual independence: "
@@ -159,7 +190,8 @@ ReplayResult replay(const RationalModel& m, const std::vector<double>& u_in, con
     << r.whiteness.rho.size() << " lags over " << r.whiteness.threshold << ", input cross-correlation "
     << r.cross.failing << " of " << r.cross.rho.size() << " over " << r.cross.threshold << ")";
   r.verdict = s.str();
-  return r;
 }
+
+}  // namespace detail
 
 }  // namespace benchid::fit

@@ -31,6 +31,8 @@
 // a test passes when at most 1 % of its lags (and at least one allowed) fail.
 #pragma once
 
+#include <functional>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -65,6 +67,8 @@ struct ReplayResult {
   CorrelationTest whiteness, cross;
   std::string verdict;            // one line
   Hold hold = Hold::as_measured;  // the simulation used
+  bool streamed = false;          // replay_stream() on a long record: `simulated` is empty
+  std::string note;               // e.g. where a streamed simulation truncated the model's response
 };
 
 // Exact zero-order-hold simulation of the model at rate_hz (s-domain models).
@@ -74,5 +78,39 @@ std::vector<double> simulate_as_measured(const RationalModel& m, const std::vect
 
 ReplayResult replay(const RationalModel& m, const std::vector<double>& u, const std::vector<double>& y,
                     double rate_hz, const ReplayOptions& o = {});
+
+// A recording read block by block from its start (see replay_stream).
+class ReplaySource {
+ public:
+  virtual ~ReplaySource() = default;
+  // The next block of input u and output y (equal lengths); returns its length, 0 at the end.
+  virtual std::size_t next(std::vector<double>& u, std::vector<double>& y) = 0;
+  virtual double rate_hz() const = 0;  // final once next() has returned 0
+};
+
+struct StreamReplayOptions {
+  // Records up to this many samples are read whole and replayed by replay(),
+  // so their figures are exactly replay()'s; longer ones are streamed.
+  std::size_t in_memory_limit = std::size_t{1} << 22;
+  // Streamed "as measured": the model's response becomes an FIR filter of at
+  // most this many taps (doubled from 4096 until the discarded part of the
+  // impulse response holds less than 1e-7 of its energy, 3e-4 of its
+  // amplitude); where more than 1e-5 is left out, `note` says so. A fractional delay's band-limited
+  // interpolation decays slowly, so a model with one takes the most taps.
+  std::size_t max_taps = std::size_t{1} << 20;
+};
+
+// Receives the record in order as it is replayed: index of the block's first
+// sample, measured and simulated output (means restored).
+using ReplaySink = std::function<void(std::size_t first, const std::vector<double>& y, const std::vector<double>& y_sim)>;
+
+// replay() of a record of any length in bounded memory: a first pass over
+// open() finds the length, rate and means; a second simulates and
+// accumulates match % and the correlation sums as the samples go by. The
+// figures equal replay()'s to rounding (zoh: the same recursion; as
+// measured: the response as a long FIR, see max_taps).
+ReplayResult replay_stream(const RationalModel& m, const std::function<std::unique_ptr<ReplaySource>()>& open,
+                           const ReplayOptions& o = {}, const StreamReplayOptions& so = {},
+                           const ReplaySink& sink = {});
 
 }  // namespace benchid::fit

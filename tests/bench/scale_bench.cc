@@ -12,6 +12,9 @@
 // resident memory is the largest of the runs (getrusage of the child).
 // Columns: format, samples, file MB, floor s, benchid s (all cores), with
 // --threads 1 s, MB/s, ns per sample, peak RSS MiB (all cores, one thread).
+// Then `benchid replay` of the same record (two streaming passes, model
+// fitted once by `benchid fit` to the first FRF of the format): time, ns
+// per sample and peak RSS.
 #include <sys/resource.h>
 #include <sys/wait.h>
 #include <fcntl.h>
@@ -164,10 +167,11 @@ int main(int argc, char** argv) {
   std::printf("benchid frf scaling: segment 8192, Hann, 50 %% overlap; fs 10 kHz, 2 channels; medians of %d; "
               "%u cores\n",
               repeat, std::max(1u, static_cast<unsigned>(sysconf(_SC_NPROCESSORS_ONLN))));
-  std::printf("%-5s %11s %9s %8s %10s %10s %7s %8s %16s\n", "fmt", "samples", "file MB", "floor s", "benchid s",
-              "1 thread s", "MB/s", "ns/samp", "peak RSS MiB");
-  const std::string out = dir + "/benchid-scale-frf.csv";
+  std::printf("%-5s %11s %9s %8s %10s %10s %7s %8s %16s | %9s %8s %9s\n", "fmt", "samples", "file MB", "floor s",
+              "frf s", "1 thread s", "MB/s", "ns/samp", "peak RSS MiB", "replay s", "ns/samp", "RSS MiB");
+  const std::string out = dir + "/benchid-scale-frf.csv", model = dir + "/benchid-scale-model.json";
   for (const auto& fmt : split(formats)) {
+    bool have_model = false;
     for (const auto& sz : split(sizes)) {
       const auto n = static_cast<std::size_t>(std::stod(sz));
       const std::string path = dir + "/benchid-scale." + fmt;
@@ -195,13 +199,28 @@ int main(int argc, char** argv) {
         all_s.push_back(a.wall_s), one_s.push_back(b.wall_s);
         rss_all = std::max(rss_all, a.rss_mib), rss_one = std::max(rss_one, b.rss_mib);
       }
-      const double t = median(all_s);
-      std::printf("%-5s %11zu %9.1f %8.3f %10.3f %10.3f %7.0f %8.1f %7.1f / %6.1f\n", fmt.c_str(), n, mb,
-                  median(floor_s), t, median(one_s), mb / t, 1e9 * t / static_cast<double>(n), rss_all, rss_one);
+      if (!have_model) {
+        run({exe, "fit", out, "--order", "2", "--band", "1:1000", "-q", "-o", model});
+        have_model = true;
+      }
+      std::vector<double> rep_s;
+      double rss_rep = 0;
+      for (int r = 0; r < repeat; ++r) {
+        std::vector<std::string> cmd = {exe, "replay", model, path};
+        cmd.insert(cmd.end(), ch.begin(), ch.end());
+        const Run x = run(cmd);
+        rep_s.push_back(x.wall_s);
+        rss_rep = std::max(rss_rep, x.rss_mib);
+      }
+      const double t = median(all_s), tr = median(rep_s);
+      std::printf("%-5s %11zu %9.1f %8.3f %10.3f %10.3f %7.0f %8.1f %7.1f / %6.1f | %9.3f %8.1f %9.1f\n", fmt.c_str(), n,
+                  mb, median(floor_s), t, median(one_s), mb / t, 1e9 * t / static_cast<double>(n), rss_all, rss_one, tr,
+                  1e9 * tr / static_cast<double>(n), rss_rep);
       std::fflush(stdout);
       std::filesystem::remove(path);
     }
   }
   std::filesystem::remove(out);
+  std::filesystem::remove(model);
   return 0;
 }

@@ -2,6 +2,8 @@
 // bad input exit 2 with one line and no file; a fit that cannot converge exit 1.
 #include <gtest/gtest.h>
 
+#include <fstream>
+
 #include <cmath>
 #include <filesystem>
 
@@ -154,6 +156,39 @@ TEST(ReplayCli, ModelOnItsOwnRecordMatchesAndWrongModelFailsStrict) {
   ASSERT_EQ(r.code, 0) << r.err << r.out;
   EXPECT_NE(r.out.find("residual independence: pass"), std::string::npos) << r.out;
   EXPECT_TRUE(fs::exists(d.file("sim.csv")));
+  // The same replay streamed in two passes (as a record above --stream-above
+  // samples is): the same verdict, and the same samples in the CSV, whose
+  // last line is the verdict.
+  const auto verdict_of = [](const std::string& out) {
+    const auto a = out.find("  match "), b = out.find('\n', a);
+    return out.substr(a, b - a);
+  };
+  const auto lines_of = [](const std::string& path) {
+    std::ifstream in(path);
+    std::vector<std::string> v;
+    for (std::string l; std::getline(in, l);) v.push_back(l);
+    return v;
+  };
+  Outcome st = run(d, "replay " + d.file("m.json") + " " + rec + " --input cmd --output resp --hold zoh --strict " +
+                          "--stream-above 1000 -o " + d.file("sim_streamed.csv"));
+  ASSERT_EQ(st.code, 0) << st.err << st.out;
+  EXPECT_NE(st.out.find("streamed in two passes"), std::string::npos) << st.out;
+  EXPECT_EQ(verdict_of(st.out), verdict_of(r.out));
+  const auto whole_csv = lines_of(d.file("sim.csv")), streamed_csv = lines_of(d.file("sim_streamed.csv"));
+  ASSERT_EQ(streamed_csv.size(), whole_csv.size());
+  EXPECT_EQ(streamed_csv.size(), 8000u + 3);  // comment, header, samples, verdict
+  EXPECT_EQ(streamed_csv.back().rfind("# verdict: match ", 0), 0u) << streamed_csv.back();
+  EXPECT_EQ(streamed_csv[1], "time_s,measured,simulated,residual");
+  // a record that turns bad near its end: exit 2, and the CSV that was being
+  // written as the record went by is not left behind
+  d.write("bad.csv", s + "8.0000,1.0,oops\n");
+  st = run(d, "replay " + d.file("m.json") + " " + d.file("bad.csv") + " --input cmd --output resp --hold zoh " +
+                  "--stream-above 1000 -o " + d.file("sim_bad.csv"));
+  EXPECT_EQ(st.code, 2) << st.err;
+  EXPECT_NE(st.err.find("bad.csv:8002: "), std::string::npos) << st.err;
+  EXPECT_FALSE(fs::exists(d.file("sim_bad.csv")));
+  for (const auto& e : fs::directory_iterator(d.path()))
+    EXPECT_EQ(e.path().filename().string().find("sim_bad"), std::string::npos) << e.path();
   benchid::fit::RationalModel wrong = m;
   for (auto& p : wrong.poles) p *= 1.3;
   d.write("wrong.json", benchid::fit::model_json(wrong));
