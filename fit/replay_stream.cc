@@ -153,7 +153,7 @@ class FirSimulator {
 // inputs are kept in rings.
 class Scores {
  public:
-  Scores(std::size_t lags, std::size_t settle) : m_(lags), settle_(settle), e_(lags + 1), u_(lags + 1) {
+  Scores(std::size_t lags, std::size_t settle) : m_(lags), settle_(settle), e_(2 * (lags + 1)), u_(2 * (lags + 1)) {
     cross_pos_.assign(m_ + 1, 0.0);
     cross_neg_.assign(m_ + 1, 0.0);
     ee_lag_.assign(m_ + 1, 0.0);
@@ -164,17 +164,21 @@ class Scores {
     if (k < settle_) return;
     const double e = y - ys;
     sy_ += y, syy_ += y * y, ee_ += e * e;
-    head_ = (head_ + 1) % e_.size();
-    e_[head_] = e, u_[head_] = u;
+    // Each ring is stored twice over (at i and i + m_ + 1), so the last
+    // m_ + 1 values are contiguous, newest at `at`, without a modulo.
+    const std::size_t len = m_ + 1;
+    head_ = head_ + 1 == len ? 0 : head_ + 1;
+    e_[head_] = e_[head_ + len] = e;
+    u_[head_] = u_[head_ + len] = u;
+    const std::size_t at = head_ + len;
     const std::size_t have = std::min(t_, m_);  // earlier scored samples in the rings
     for (std::size_t tau = 0; tau <= have; ++tau) {
-      const std::size_t j = (head_ + e_.size() - tau) % e_.size();
       // rho_ee(tau) = sum e[t] e[t - tau]; rho_eu(tau) = sum e[t] u[t - tau] for tau >= 0,
       // and for tau < 0 sum e[t] u[t + |tau|] = sum u[t] e[t - |tau|]
-      ee_lag_[tau] += e * e_[j];
-      uu_lag_[tau] += u * u_[j];
-      cross_pos_[tau] += e * u_[j];
-      if (tau > 0) cross_neg_[tau] += u * e_[j];
+      ee_lag_[tau] += e * e_[at - tau];
+      uu_lag_[tau] += u * u_[at - tau];
+      cross_pos_[tau] += e * u_[at - tau];
+      cross_neg_[tau] += u * e_[at - tau];  // used for tau > 0 only
     }
     ++t_;
   }
@@ -208,7 +212,7 @@ class Scores {
 
  private:
   std::size_t m_, settle_, t_ = 0, head_ = 0;
-  std::vector<double> e_, u_;  // rings of the last m_ + 1 residuals and inputs
+  std::vector<double> e_, u_;  // rings of the last m_ + 1 residuals and inputs, each stored twice
   std::vector<double> cross_pos_, cross_neg_, ee_lag_, uu_lag_;
   double sy_ = 0, syy_ = 0, ee_ = 0;
 };
