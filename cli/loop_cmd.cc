@@ -122,7 +122,13 @@ std::string controller_spec(const std::string& arg) {
   const nlohmann::json j = read_json_file(arg, "a controller JSON {\"format\": \"benchid.controller/1\", \"spec\": ...}");
   if (!j.is_object() || j.value("format", "") != "benchid.controller/1" || !j.contains("spec") || !j["spec"].is_string())
     throw InputError(arg + ": expected {\"format\": \"benchid.controller/1\", \"spec\": \"FORM:PARAMS...\"}");
-  return j["spec"].get<std::string>();
+  const std::string spec = j["spec"].get<std::string>();
+  try {
+    loop::parse_controller(spec);  // a bad spec is refused naming the file it came from
+  } catch (const InputError& e) {
+    throw InputError(where(arg) + "spec '" + spec.substr(0, 80) + "': " + e.what());
+  }
+  return spec;
 }
 
 const char* const kLoopCaution =
