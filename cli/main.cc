@@ -9,6 +9,7 @@
 #include <string>
 
 #include "cli/commands.h"
+#include "cli/output.h"
 #include "ident/error.h"
 
 int main(int argc, char** argv) {
@@ -28,6 +29,7 @@ int main(int argc, char** argv) {
   benchid::cli::add_report_command(app, command_line);
   benchid::cli::add_demo_command(app);
   benchid::cli::add_batch_command(app);
+  benchid::cli::install_stop_handlers();
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

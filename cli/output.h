@@ -8,6 +8,10 @@
 
 namespace benchid::cli {
 
+// SIGINT and SIGTERM: remove the temporaries of outputs not yet renamed
+// into place, print one line, exit 130 or 143. Installed once by main().
+void install_stop_handlers();
+
 // Throws InputError when `out` names the same file as any of `inputs`.
 void refuse_overwriting_input(const std::string& out, const std::vector<std::string>& inputs);
 // Writes `content` to `path` atomically ("-" writes to stdout).
