@@ -102,7 +102,15 @@ void run_fit(const FitCommand& a) {
     o.vf.domain = fit::Domain::z;
     o.vf.sample_time_s = a.sample_time_s;
   }
-  const fit::FrfFit f = fit::fit_frf(frf, o);
+  const fit::FrfFit f = [&] {
+    try {
+      return fit::fit_frf(frf, o);
+    } catch (const InputError& e) {
+      const std::string what = e.what();
+      if (what.rfind(a.frf, 0) == 0) throw;
+      throw InputError(where(a.frf) + what);  // what the FRF cannot support, naming it
+    }
+  }();
   const std::string summary = fit::fit_summary(f, a.frf);
   (a.json ? std::cerr : std::cout) << (a.quiet ? std::string() : summary + "\n");
   require_converged(f);

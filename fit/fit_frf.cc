@@ -128,6 +128,31 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
   if (use.empty())
     throw InputError("all " + std::to_string(in_band) + " lines in the band are flagged unreliable (coherence at or "
                      "below the zero-coherence bound); expected a better measurement or another band");
+  // Pure noise: with unrelated input and output, a fraction alpha = 1 -
+  // confidence of the lines still passes the zero-coherence bound by chance,
+  // scattered. When the reliable lines are no more than chance gives
+  // (alpha n + 3 sigma of the binomial count) and no 5 of them are adjacent
+  // (n alpha^5 < 1e-3 for the line counts of a Welch FRF), there is no
+  // identifiable system to fit (Welch estimators only: periodic and stepped
+  // FRFs hold excited lines alone).
+  if (frf.estimator != ident::Estimator::periodic && frf.estimator != ident::Estimator::stepped && in_band >= 50 &&
+      !frf.reliable.empty()) {
+    const double alpha = 1.0 - frf.confidence, n = static_cast<double>(in_band);
+    std::size_t reliable = 0, run = 0, longest = 0;
+    for (std::size_t k = 0; k < frf.size(); ++k) {
+      const double f = frf.freq_hz[k];
+      if ((o.band_lo_hz > 0 && f < o.band_lo_hz) || (o.band_hi_hz > 0 && f > o.band_hi_hz)) continue;
+      run = frf.reliable[k] ? run + 1 : 0;
+      reliable += frf.reliable[k];
+      longest = std::max(longest, run);
+    }
+    if (static_cast<double>(reliable) <= alpha * n + 3 * std::sqrt(n * alpha * (1 - alpha)) && longest < 5)
+      throw InputError("no identifiable system: only " + std::to_string(reliable) + " of " + std::to_string(in_band) +
+                       " lines pass the " + fmt_num(100 * frf.confidence) + " % zero-coherence bound, scattered (at most " +
+                       std::to_string(longest) + " adjacent), as chance gives for unrelated signals (" +
+                       fmt_num(100 * alpha) + " %); expected an output that responds to the input: check the channels, "
+                       "the excitation level and the wiring");
+  }
   std::vector<double> eps;
   for (std::size_t k : use)
     if (std::isfinite(frf.rel_err[k])) eps.push_back(frf.rel_err[k]);

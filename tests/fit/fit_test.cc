@@ -8,6 +8,7 @@
 #include <cmath>
 #include <cstring>
 #include <fstream>
+#include <random>
 #include <sstream>
 
 #include "fit/fit_frf.h"
@@ -357,6 +358,43 @@ TEST(FitFrf, OrderSweepOnSeveralThreadsIsBitIdenticalToOne) {
                           one.result.model.residues.size() * sizeof(cplx)),
               0);
   }
+}
+
+// Unrelated input and output: each line passes the 95 % zero-coherence
+// bound with probability 5 % (Carter, Knapp & Nuttall's bound, CHECK_VALUES.md),
+// scattered. fit must say there is no identifiable system, not fit the
+// chance lines. A band-limited measurement with as few reliable lines, but
+// adjacent, is a system and is fitted.
+TEST(FitFrf, PureNoiseIsNoIdentifiableSystemButABandLimitedOneIsFitted) {
+  RationalModel t;
+  t.poles = {-2 * M_PI * 20.0};
+  t.residues = {2 * M_PI * 20.0};
+  FitData d;
+  for (int k = 1; k <= 2000; ++k) {
+    const double f = 0.5 * k;
+    d.freq_hz.push_back(f);
+    d.h.push_back(t.response(f));
+    d.weight.push_back(1);
+  }
+  benchid::ident::Frf frf = as_frf(d, 0.05);
+  frf.confidence = 0.95;
+  std::mt19937_64 rng(12);
+  std::bernoulli_distribution chance(0.05);
+  for (auto& r : frf.reliable) r = chance(rng);
+  FitOptions o;
+  o.auto_order = true;
+  try {
+    fit_frf(frf, o);
+    FAIL() << "fitted pure noise";
+  } catch (const benchid::InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("no identifiable system"), std::string::npos) << e.what();
+  }
+  // 100 adjacent reliable lines (5 % of the FRF) from a random excitation
+  // limited to 5..55 Hz: fitted, and the pole found
+  for (std::size_t k = 0; k < frf.size(); ++k) frf.reliable[k] = k >= 9 && k < 109;
+  const FrfFit f = fit_frf(frf, o);
+  ASSERT_FALSE(f.result.model.poles.empty());
+  EXPECT_NEAR(f.result.model.poles[0].real(), t.poles[0].real(), 1e-6 * std::abs(t.poles[0]));
 }
 
 TEST(FitFrf, ReflectsUnstablePolesUnlessAllowed) {
