@@ -16,19 +16,50 @@
 
 namespace benchid::cli {
 
+namespace {
+// The input and output channels of a recording, block by block, for
+// replay_stream (which may open it twice) and read_channel_pair. The rate,
+// final at the end of a pass, is shared with whoever writes the time column
+// (rate may be null).
+class RecordSource final : public fit::ReplaySource {
+ public:
+  RecordSource(const std::string& record, const std::string& input, const std::string& output,
+               const ident::ReadOptions& ro, std::shared_ptr<double> rate = nullptr)
+      : reader_(ident::open_record(record, ro)), rate_(std::move(rate)) {
+    const std::size_t iu = reader_->channel_index(input), iy = reader_->channel_index(output);
+    if (iu == iy) throw InputError(record + ": input and output are the same channel; expected two channels");
+    reader_->select({iu, iy});
+  }
+  std::size_t next(std::vector<double>& u, std::vector<double>& y) override {
+    const std::size_t n = reader_->read_block(1 << 16, block_);
+    if (n == 0) {
+      if (rate_) *rate_ = reader_->rate_hz();
+      return 0;
+    }
+    std::swap(u, block_[0]);
+    std::swap(y, block_[1]);
+    return n;
+  }
+  double rate_hz() const override { return reader_->rate_hz(); }
+
+ private:
+  std::unique_ptr<ident::RecordReader> reader_;
+  std::vector<std::vector<double>> block_;
+  std::shared_ptr<double> rate_;
+};
+
+}  // namespace
+
 ChannelPair read_channel_pair(const std::string& record, const std::string& input, const std::string& output,
                               const ident::ReadOptions& ro) {
-  auto reader = ident::open_record(record, ro);
-  const std::size_t iu = reader->channel_index(input), iy = reader->channel_index(output);
-  if (iu == iy) throw InputError(record + ": input and output are the same channel; expected two channels");
-  reader->select({iu, iy});
+  RecordSource src(record, input, output, ro);
   ChannelPair p;
-  std::vector<std::vector<double>> block;
-  while (reader->read_block(1 << 16, block) > 0) {
-    p.u.insert(p.u.end(), block[0].begin(), block[0].end());
-    p.y.insert(p.y.end(), block[1].begin(), block[1].end());
+  std::vector<double> u, y;
+  while (std::size_t n = src.next(u, y)) {
+    p.u.insert(p.u.end(), u.begin(), u.begin() + static_cast<long>(n));
+    p.y.insert(p.y.end(), y.begin(), y.begin() + static_cast<long>(n));
   }
-  p.rate_hz = reader->rate_hz();
+  p.rate_hz = src.rate_hz();
   return p;
 }
 
@@ -43,36 +74,6 @@ struct ReplayArgs {
   std::string hold = "measured";
   double split = 0;
   std::size_t stream_above = fit::StreamReplayOptions{}.in_memory_limit;
-};
-
-// The input and output channels of a recording, block by block, for
-// replay_stream (which opens it twice). The rate, final at the end of a
-// pass, is shared with whoever writes the time column.
-class RecordSource final : public fit::ReplaySource {
- public:
-  RecordSource(const std::string& record, const std::string& input, const std::string& output,
-               const ident::ReadOptions& ro, std::shared_ptr<double> rate)
-      : reader_(ident::open_record(record, ro)), rate_(std::move(rate)) {
-    const std::size_t iu = reader_->channel_index(input), iy = reader_->channel_index(output);
-    if (iu == iy) throw InputError(record + ": input and output are the same channel; expected two channels");
-    reader_->select({iu, iy});
-  }
-  std::size_t next(std::vector<double>& u, std::vector<double>& y) override {
-    const std::size_t n = reader_->read_block(1 << 16, block_);
-    if (n == 0) {
-      *rate_ = reader_->rate_hz();
-      return 0;
-    }
-    std::swap(u, block_[0]);
-    std::swap(y, block_[1]);
-    return n;
-  }
-  double rate_hz() const override { return reader_->rate_hz(); }
-
- private:
-  std::unique_ptr<ident::RecordReader> reader_;
-  std::vector<std::vector<double>> block_;
-  std::shared_ptr<double> rate_;
 };
 
 void run_replay(const ReplayArgs& a) {

@@ -1,9 +1,7 @@
 #include "fit/fit_frf.h"
 
 #include <algorithm>
-#include <atomic>
 #include <exception>
-#include <system_error>
 #include <thread>
 #include <cmath>
 #include <cstdio>
@@ -11,6 +9,7 @@
 #include <sstream>
 
 #include "ident/error.h"
+#include "ident/work_pool.h"
 
 namespace benchid::fit {
 
@@ -184,30 +183,18 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     // each into its own slot, and are judged in order afterwards.
     std::vector<FitResult> fits(static_cast<std::size_t>(limit));
     std::vector<std::exception_ptr> errors(fits.size());
-    std::atomic<int> next{0};
-    auto work = [&] {
-      for (int i; (i = next.fetch_add(1)) < limit;) {
-        VectorFitOptions v = vo;
-        v.order = i + 1;
-        try {
-          fits[static_cast<std::size_t>(i)] = vector_fit(out.data, v);
-        } catch (...) {
-          errors[static_cast<std::size_t>(i)] = std::current_exception();
-        }
-      }
-    };
     const int hw = static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
     const int n_threads = std::min(limit, o.threads > 0 ? o.threads : std::min(hw, 8));
-    std::vector<std::thread> pool;
-    for (int t = 1; t < n_threads; ++t) {
+    ident::WorkPool pool(static_cast<std::size_t>(n_threads - 1));
+    pool.run(static_cast<std::size_t>(limit), [&](std::size_t i) {
+      VectorFitOptions v = vo;
+      v.order = static_cast<int>(i) + 1;
       try {
-        pool.emplace_back(work);
-      } catch (const std::system_error&) {
-        break;  // fewer threads; this one does the rest
+        fits[i] = vector_fit(out.data, v);
+      } catch (...) {
+        errors[i] = std::current_exception();
       }
-    }
-    work();
-    for (auto& t : pool) t.join();
+    });
     int best_aic_order = 1, accepted = 0;
     double best_aic = 0;
     for (int n = 1; n <= limit; ++n) {

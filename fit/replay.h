@@ -105,7 +105,8 @@ struct StreamReplayOptions {
 using ReplaySink = std::function<void(std::size_t first, const std::vector<double>& y, const std::vector<double>& y_sim)>;
 
 // replay() of a record of any length in bounded memory: a first pass over
-// open() finds the length, rate and means; a second simulates and
+// open() finds the length, rate and means (and keeps a short record, which
+// goes to replay() without a second pass); a second simulates and
 // accumulates match % and the correlation sums as the samples go by. The
 // figures equal replay()'s to rounding (zoh: the same recursion; as
 // measured: the response as a long FIR, see max_taps).

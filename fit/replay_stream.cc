@@ -1,7 +1,8 @@
 // replay_stream(): replay() in bounded memory for records of any length.
 //
-// Pass 1 reads the record for its length, rate and means. Short records are
-// then read whole and handed to replay(). Long ones are simulated sample by
+// Pass 1 reads the record for its length, rate and means, keeping the
+// samples of a short record, which then goes to replay() without a second
+// read. Long ones are simulated sample by
 // sample (zoh: the same recursion as replay()) or block by block through an
 // FIR filter made from the model's response (as measured), and match % and
 // the correlation sums are accumulated as the samples go by, with the last
@@ -224,22 +225,29 @@ ReplayResult replay_stream(const RationalModel& m, const std::function<std::uniq
   std::vector<double> ub, yb;
   std::size_t n = 0;
   double su = 0, sy = 0, rate_hz = 0;
+  // Pass 1 keeps the samples while the record is short enough to be replayed
+  // whole, so a short record is read once; past the limit they are dropped.
+  std::vector<double> u, y;
+  bool whole = true;
   {
     auto src = open();
-    for (std::size_t k; (k = src->next(ub, yb)) > 0; n += k)
+    for (std::size_t k; (k = src->next(ub, yb)) > 0; n += k) {
       for (std::size_t i = 0; i < k; ++i) su += ub[i], sy += yb[i];
+      if (whole && n + k > so.in_memory_limit) {
+        whole = false;
+        std::vector<double>().swap(u);
+        std::vector<double>().swap(y);
+      }
+      if (whole) {
+        u.insert(u.end(), ub.begin(), ub.begin() + static_cast<long>(k));
+        y.insert(y.end(), yb.begin(), yb.begin() + static_cast<long>(k));
+      }
+    }
     rate_hz = src->rate_hz();
   }
   if (!(rate_hz > 0) || !std::isfinite(rate_hz))
     throw InputError("replay: cannot tell the sampling rate; expected a time column or --rate HZ");
-  if (n <= so.in_memory_limit) {
-    std::vector<double> u, y;
-    u.reserve(n), y.reserve(n);
-    auto src = open();
-    for (std::size_t k; (k = src->next(ub, yb)) > 0;) {
-      u.insert(u.end(), ub.begin(), ub.begin() + static_cast<long>(k));
-      y.insert(y.end(), yb.begin(), yb.begin() + static_cast<long>(k));
-    }
+  if (whole) {
     ReplayResult r = replay(m, u, y, rate_hz, o);
     if (sink) sink(0, y, r.simulated);
     return r;
