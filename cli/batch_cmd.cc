@@ -27,6 +27,7 @@
 #include <nlohmann/json.hpp>
 
 #include "cli/commands.h"
+#include "cli/manifest.h"
 #include "cli/output.h"
 #include "cli/parse.h"
 #include "cli/report.h"
@@ -48,129 +49,6 @@ struct BatchArgs {
   unsigned jobs = 1;
   bool resume = false, quiet = false;
 };
-
-// Manifest columns (header row required; empty cell = not used / default).
-const std::vector<std::string> kRequired{"unit", "record", "input", "output"};
-const std::vector<std::string> kSettings{"reference", "excitation", "rate", "controller", "order", "delay", "band",
-                                         "integrators"};
-// Limits: a manifest cell, else the --limits file, else none (the loop's
-// three have the `loop` command's defaults when a controller is given).
-const std::vector<std::string> kLimits{"pm_min",         "gm_min",           "ms_max_db",        "dc_gain_min",
-                                       "dc_gain_max",    "resonance_hz_min", "resonance_hz_max", "nrmse_max"};
-const std::map<std::string, double> kLoopDefaults{{"pm_min", 45}, {"gm_min", 10}, {"ms_max_db", 6}};
-
-struct Unit {
-  std::size_t line = 0;  // in the manifest
-  std::map<std::string, std::string> cell;
-  std::map<std::string, double> limit;
-};
-
-// One CSV record: fields separated by commas, optionally in double quotes
-// ("" inside quotes is a quote).
-std::vector<std::string> csv_fields(const std::string& line, const std::string& where) {
-  std::vector<std::string> f(1);
-  bool quoted = false;
-  for (std::size_t i = 0; i < line.size(); ++i) {
-    const char c = line[i];
-    if (quoted) {
-      if (c == '"' && i + 1 < line.size() && line[i + 1] == '"') f.back() += '"', ++i;
-      else if (c == '"') quoted = false;
-      else f.back() += c;
-    } else if (c == '"') {
-      quoted = true;
-    } else if (c == ',') {
-      f.emplace_back();
-    } else if (c != '\r') {
-      f.back() += c;
-    }
-  }
-  if (quoted) throw InputError(where + ": a quote is not closed; expected \"...\"");
-  for (auto& s : f) {  // trim spaces
-    const auto b = s.find_first_not_of(" \t"), e = s.find_last_not_of(" \t");
-    s = b == std::string::npos ? "" : s.substr(b, e - b + 1);
-  }
-  return f;
-}
-
-std::vector<Unit> read_manifest(const std::string& path, const std::map<std::string, double>& file_limits) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError(path + ": cannot open the manifest");
-  std::string line;
-  std::vector<std::string> header;
-  std::size_t n = 0;
-  std::vector<Unit> units;
-  std::set<std::string> ids;
-  const fs::path base = fs::path(path).parent_path();
-  while (std::getline(in, line)) {
-    ++n;
-    const std::string where = path + ":" + std::to_string(n);
-    if (line.empty() || line[0] == '#' || line.find_first_not_of(" \t\r,") == std::string::npos) continue;
-    std::vector<std::string> f = csv_fields(line, where);
-    if (header.empty()) {
-      header = f;
-      for (const auto& h : header) {
-        const bool known = std::count(kRequired.begin(), kRequired.end(), h) ||
-                           std::count(kSettings.begin(), kSettings.end(), h) || std::count(kLimits.begin(), kLimits.end(), h);
-        if (!known)
-          throw InputError(where + ": column '" + h + "' is unknown; expected unit, record, input, output, reference, "
-                           "excitation, rate, controller, order, delay, band, integrators or a limit (pm_min, gm_min, "
-                           "ms_max_db, dc_gain_min, dc_gain_max, resonance_hz_min, resonance_hz_max, nrmse_max)");
-        if (std::count(header.begin(), header.end(), h) > 1) throw InputError(where + ": column '" + h + "' appears twice");
-      }
-      for (const auto& r : kRequired)
-        if (!std::count(header.begin(), header.end(), r))
-          throw InputError(where + ": no column '" + r + "'; expected a header with unit, record, input and output");
-      continue;
-    }
-    if (f.size() != header.size())
-      throw InputError(where + ": " + std::to_string(f.size()) + " fields; expected " + std::to_string(header.size()) +
-                       " as in the header");
-    Unit u;
-    u.line = n;
-    for (std::size_t i = 0; i < f.size(); ++i) u.cell[header[i]] = f[i];
-    for (const auto& r : kRequired)
-      if (u.cell[r].empty()) throw InputError(where + ": '" + r + "' is empty; expected a value");
-    if (!ids.insert(u.cell["unit"]).second) throw InputError(where + ": unit '" + u.cell["unit"] + "' appears twice");
-    for (const char* p : {"record", "excitation"})
-      if (!u.cell[p].empty() && fs::path(u.cell[p]).is_relative()) u.cell[p] = (base / u.cell[p]).string();
-    u.limit = file_limits;
-    for (const auto& l : kLimits)
-      if (!u.cell[l].empty()) u.limit[l] = parse_number(u.cell[l], where + ": " + l);
-    const bool loop = !u.cell["controller"].empty();
-    for (const auto& [l, v] : kLoopDefaults) {
-      if (u.limit.count(l) && !loop)
-        throw InputError(where + ": limit " + l + " needs a controller; expected a 'controller' value for unit '" +
-                         u.cell["unit"] + "'");
-      if (loop && !u.limit.count(l)) u.limit[l] = v;
-    }
-    if (loop) {
-      try {
-        u.cell["controller"] = controller_spec(u.cell["controller"]);
-        loop::parse_controller(u.cell["controller"]);
-      } catch (const InputError& e) {
-        throw InputError(where + ": controller: " + e.what());
-      }
-    }
-    units.push_back(std::move(u));
-  }
-  if (header.empty()) throw InputError(path + ": empty; expected a header row and one row per unit");
-  return units;
-}
-
-std::map<std::string, double> read_limits(const std::string& path) {
-  std::map<std::string, double> out;
-  if (path.empty()) return out;
-  const nlohmann::json j = read_json_file(path, "a limits file (JSON object of limit: value)");
-  if (!j.is_object()) throw InputError(path + ": expected a JSON object of limit: value");
-  for (const auto& [k, v] : j.items()) {
-    if (!std::count(kLimits.begin(), kLimits.end(), k))
-      throw InputError(path + ": limit '" + k + "' is unknown; expected one of pm_min, gm_min, ms_max_db, dc_gain_min, "
-                       "dc_gain_max, resonance_hz_min, resonance_hz_max, nrmse_max");
-    if (!v.is_number()) throw InputError(path + ": limit '" + k + "' is not a number");
-    out[k] = v.get<double>();
-  }
-  return out;
-}
 
 ojson number(double v) { return std::isfinite(v) ? ojson(v) : ojson(nullptr); }
 

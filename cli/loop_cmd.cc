@@ -114,22 +114,7 @@ void run_sweep(const LoopCommand& cmd, const std::string& controller, bool frf_p
                "machinery gradually, under the machine's safety rules.\n";
 }
 
-// --controller FILE.json: {"format": "benchid.controller/1", "spec": "..."}
 }  // namespace
-
-std::string controller_spec(const std::string& arg) {
-  if (arg.size() < 5 || arg.compare(arg.size() - 5, 5, ".json") != 0) return arg;
-  const nlohmann::json j = read_json_file(arg, "a controller JSON {\"format\": \"benchid.controller/1\", \"spec\": ...}");
-  if (!j.is_object() || j.value("format", "") != "benchid.controller/1" || !j.contains("spec") || !j["spec"].is_string())
-    throw InputError(arg + ": expected {\"format\": \"benchid.controller/1\", \"spec\": \"FORM:PARAMS...\"}");
-  const std::string spec = j["spec"].get<std::string>();
-  try {
-    loop::parse_controller(spec);  // a bad spec is refused naming the file it came from
-  } catch (const InputError& e) {
-    throw InputError(where(arg) + "spec '" + spec.substr(0, 80) + "': " + e.what());
-  }
-  return spec;
-}
 
 const char* const kLoopCaution =
     "These figures hold only where the plant was measured and the model fits; changing a controller on live "

@@ -97,7 +97,7 @@ struct LoopArgs {
 };
 void add_loop_options(CLI::App* c, LoopArgs& a, bool pipeline);
 // --controller FILE.json -> its spec; a spec is returned as it is.
-std::string controller_spec(const std::string& arg);
+using loop::controller_spec;
 
 struct LoopCheck {
   std::string name;

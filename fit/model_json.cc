@@ -62,10 +62,15 @@ std::string model_json(const RationalModel& m, const FitSummary* fit) {
 RationalModel read_model_json(const std::string& path) {
   const json j = read_json_file(path, "a model from 'benchid fit'");
   auto bad = [&](const std::string& w) { throw InputError(where(path) + w); };
-  if (!j.is_object() || j.value("format", "") != "benchid.model/1")
+  const auto text = [&](const char* key, const char* def) -> std::string {
+    if (!j.contains(key)) return def;
+    if (!j[key].is_string()) bad(std::string(key) + " is " + j[key].dump().substr(0, 30) + "; expected a string");
+    return j[key].get<std::string>();
+  };
+  if (!j.is_object() || text("format", "") != "benchid.model/1")
     bad("\"format\" is not \"benchid.model/1\"; expected a model from 'benchid fit'");
   RationalModel m;
-  const std::string dom = j.value("domain", "s");
+  const std::string dom = text("domain", "s");
   if (dom != "s" && dom != "z") bad("domain '" + dom + "'; expected \"s\" or \"z\"");
   m.domain = dom == "s" ? Domain::s : Domain::z;
   auto num = [&](const char* key, double def) {
@@ -81,8 +86,10 @@ RationalModel read_model_json(const std::string& path) {
   if (m.delay_s < 0) bad("delay_s is negative; expected >= 0 s");
   m.direct = num("direct", 0);
   m.proportional = num("proportional", 0);
-  m.integrators = static_cast<int>(num("integrators", 0));
-  if (m.integrators < 0 || m.integrators > 8) bad("integrators out of range 0..8");
+  const double integrators = num("integrators", 0);
+  if (!(integrators >= 0 && integrators <= 8 && integrators == std::floor(integrators)))
+    bad("integrators " + j["integrators"].dump().substr(0, 30) + "; expected a whole number 0..8");
+  m.integrators = static_cast<int>(integrators);
   auto read_pairs = [&](const char* key) {
     std::vector<cplx> v;
     if (!j.contains(key)) return v;

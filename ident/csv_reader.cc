@@ -187,7 +187,7 @@ class CsvReader final : public RecordReader {
   std::size_t read_block(std::size_t max_frames, std::vector<std::vector<double>>& out) override {
     if (slot_.empty()) select({});
     out.resize(selected_.size());
-    for (auto& v : out) v.resize(max_frames);
+    for (auto& v : out) v.clear(), v.reserve(max_frames);  // grown as rows come: a short file touches little memory
     std::size_t n = 0;
     while (n < max_frames) {
       if (cur_piece_ == npieces_ && !fill()) break;
@@ -197,11 +197,15 @@ class CsvReader final : public RecordReader {
         continue;
       }
       const std::size_t take = std::min(max_frames - n, pc.rows - cur_row_);
-      for (std::size_t i = 0; i < out.size(); ++i)
+      for (std::size_t i = 0; i < out.size(); ++i) {
+        out[i].resize(n + take);
         std::memcpy(out[i].data() + n, pc.cols[i].data() + cur_row_, take * sizeof(double));
+      }
       cur_row_ += take;
       n += take;
     }
+    if (n == 0 && max_frames > 0 && use_time_ && time_rows_ == 1)  // at the end, with one time stamp
+      throw InputError(where(info_.path) + "one data row; expected at least two, so the time column gives the rate");
     for (auto& v : out) v.resize(n);
     for (std::size_t i = 0; i < selected_.size(); ++i) {
       const double s = scale_.empty() ? 1.0 : scale_[selected_[i]];
@@ -788,7 +792,15 @@ class CsvReader final : public RecordReader {
 
   ReadOptions opts_;
   int fd_ = -1;
-  std::vector<char> buf_;
+  // Text buffer: bytes are only read where read() has written them, so it is
+  // left uninitialised (zeroing 2 MiB costs page faults for nothing on small files).
+  struct TextBuffer {
+    std::unique_ptr<char[]> bytes;
+    std::size_t n = 0;
+    void resize(std::size_t k) { bytes.reset(new char[k]), n = k; }
+    char* data() { return bytes.get(); }
+    std::size_t size() const { return n; }
+  } buf_;
   std::size_t pos_ = 0, end_ = 0;
   bool eof_ = false;
   long line_no_ = 0;

@@ -164,6 +164,8 @@ Sidecar read_sidecar(const std::string& path) {
       bad(path, "band_hz is " + b.dump().substr(0, 40) + "; expected [LO, HI] in Hz");
     e.band_lo_hz = b[0].get<double>();
     e.band_hi_hz = b[1].get<double>();
+    if (!(e.band_lo_hz >= 0 && e.band_lo_hz <= e.band_hi_hz))
+      bad(path, "band_hz is " + b.dump().substr(0, 40) + "; expected [LO, HI] with 0 <= LO <= HI");
   }
   if (j.contains("lines")) {
     if (!j["lines"].is_array()) bad(path, "lines is not an array; expected DFT line numbers");
@@ -173,6 +175,7 @@ Sidecar read_sidecar(const std::string& path) {
       if (!e.lines.empty() && v.get<std::size_t>() <= e.lines.back()) bad(path, "lines must increase");
       e.lines.push_back(v.get<std::size_t>());
     }
+    if (!e.lines.empty() && e.period == 0) bad(path, "lines are given but period_samples is 0; expected the period they belong to");
   }
   e.amplitude = num(j, "amplitude", path, false);
   e.offset = num(j, "offset", path, false);
@@ -202,18 +205,26 @@ Sidecar read_sidecar(const std::string& path) {
       try {
         p.freq_hz = num(st, "freq_hz", path);
         p.amplitude = num(st, "amplitude", path, false);
-        p.start = count(st, "start_sample", path, false);
         p.measure_start = count(st, "measure_start_sample", path);
         p.measure_samples = count(st, "measure_samples", path);
-        p.end = count(st, "end_sample", path, false);
+        // the fade-in and fade-out around the window default to none
+        p.start = st.contains("start_sample") ? count(st, "start_sample", path) : p.measure_start;
+        p.end = st.contains("end_sample") ? count(st, "end_sample", path) : p.measure_start + p.measure_samples;
       } catch (const InputError& err) {
         bad(path, which + std::string(err.what()).substr(path.size() + 2));
       }
       if (!(p.freq_hz > 0 && p.freq_hz < e.rate_hz / 2))
         bad(path, which + "freq_hz " + fmt_num(p.freq_hz) + "; expected 0 < f < Nyquist (" + fmt_num(e.rate_hz / 2) + " Hz)");
       if (p.measure_samples < 8) bad(path, which + "measure_samples " + std::to_string(p.measure_samples) + "; expected at least 8");
+      if (!(p.start <= p.measure_start && p.measure_start + p.measure_samples <= p.end))
+        bad(path, which + "samples " + std::to_string(p.start) + " to " + std::to_string(p.end) + " do not hold its measuring window " +
+                      std::to_string(p.measure_start) + " + " + std::to_string(p.measure_samples) +
+                      "; expected start_sample <= measure_start_sample and measure_start_sample + measure_samples <= end_sample");
       if (!e.steps.empty() && p.measure_start < e.steps.back().measure_start + e.steps.back().measure_samples)
         bad(path, which + "its measuring window starts before the previous one ends; expected steps in time order");
+      if (!e.steps.empty() && p.start < e.steps.back().end)
+        bad(path, which + "start_sample " + std::to_string(p.start) + " is before the previous step's end_sample " +
+                      std::to_string(e.steps.back().end) + "; expected steps in time order, not overlapping");
       e.steps.push_back(p);
     }
   }

@@ -131,21 +131,34 @@ Frf read_frf_csv(const std::string& path) {
     throw InputError(where(path, ln) + "header lacks freq_hz and re,im (or mag_db,phase_deg); expected " +
                      "freq_hz,re,im,mag_db,phase_deg,coherence,rel_err");
   const double nan = std::numeric_limits<double>::quiet_NaN();
-  auto getd = [&](const std::string& k, double d) {
+  // a metadata number: absent -> d; present -> a finite number in [lo, hi], else refused
+  auto getd = [&](const std::string& k, double d, double lo = -std::numeric_limits<double>::max(),
+                  double hi = std::numeric_limits<double>::max()) {
     auto it = meta.find(k);
     if (it == meta.end()) return d;
-    double v = d;
-    std::from_chars(it->second.data(), it->second.data() + it->second.size(), v);
+    const std::string& t = it->second;
+    double v = nan;
+    const auto r = std::from_chars(t.data(), t.data() + t.size(), v);
+    if (r.ec != std::errc() || r.ptr != t.data() + t.size() || !std::isfinite(v) || v < lo || v > hi)
+      throw InputError(where(path) + "metadata " + k + "=" + t.substr(0, 40) + "; expected a number" +
+                       (hi < std::numeric_limits<double>::max() ? " from " + fmt_num(lo) + " to " + fmt_num(hi)
+                                                                : " >= " + fmt_num(lo)));
     return v;
   };
-  f.rate_hz = getd("rate_hz", 0);
-  f.segment = static_cast<std::size_t>(getd("segment", 0));
-  f.overlap = getd("overlap", 0);
-  f.averages = static_cast<std::size_t>(getd("averages", 0));
-  f.samples = static_cast<std::size_t>(getd("samples", 0));
-  f.effective_averages = getd("effective_averages", static_cast<double>(f.averages));
-  f.coherence_bound = getd("coherence_bound", 1.0);
-  f.confidence = getd("confidence", 0.95);
+  auto getn = [&](const std::string& k) {  // a count
+    const double v = getd(k, 0, 0, 1e15);
+    if (v != std::floor(v))
+      throw InputError(where(path) + "metadata " + k + "=" + meta[k].substr(0, 40) + "; expected a whole number");
+    return static_cast<std::size_t>(v);
+  };
+  f.rate_hz = getd("rate_hz", 0, 0);
+  f.segment = getn("segment");
+  f.overlap = getd("overlap", 0, 0, 0.99);
+  f.averages = getn("averages");
+  f.samples = getn("samples");
+  f.effective_averages = getd("effective_averages", static_cast<double>(f.averages), 0);
+  f.coherence_bound = getd("coherence_bound", 1.0, 0, 1);
+  f.confidence = getd("confidence", 0.95, 0.5, 0.9999);
   if (meta.count("estimator")) {
     const std::string e = meta["estimator"];
     f.estimator = e == "h2" ? Estimator::h2 : e == "hv" ? Estimator::hv : e == "indirect" ? Estimator::indirect
@@ -165,7 +178,7 @@ Frf read_frf_csv(const std::string& path) {
   f.reference = meta["reference"];
   f.loop_gain = meta["quantity"] == "loop_gain";
   f.excitation = meta["excitation"];
-  f.nonexcited_lines = static_cast<std::size_t>(getd("nonexcited_lines", 0));
+  f.nonexcited_lines = getn("nonexcited_lines");
   f.nonexcited_db = getd("nonexcited_db", nan);
   f.nonexcited_noise_db = getd("nonexcited_noise_db", nan);
   if (meta.count("harmonic_db")) {  // "H2:-28,H3:-55.8"
@@ -211,15 +224,28 @@ Frf read_frf_csv(const std::string& path) {
     if (std::isnan(v[static_cast<std::size_t>(cf)]))
       throw InputError(where(path, ln) + "empty freq_hz; expected a frequency in Hz");
     const double fr = v[static_cast<std::size_t>(cf)];
+    if (fr < 0)
+      throw InputError(where(path, ln) + "freq_hz " + line.substr(0, line.find(',')) + " is negative; expected >= 0 Hz");
+    if (cc >= 0 && !std::isnan(v[static_cast<std::size_t>(cc)]) &&
+        !(v[static_cast<std::size_t>(cc)] >= 0 && v[static_cast<std::size_t>(cc)] <= 1))
+      throw InputError(where(path, ln) + "coherence " + fmt_num(v[static_cast<std::size_t>(cc)]) + "; expected 0 to 1");
+    if (ce >= 0 && v[static_cast<std::size_t>(ce)] < 0)
+      throw InputError(where(path, ln) + "rel_err " + fmt_num(v[static_cast<std::size_t>(ce)]) + "; expected >= 0");
+    if (cr >= 0 && !std::isnan(v[static_cast<std::size_t>(cr)]) && v[static_cast<std::size_t>(cr)] != 0 &&
+        v[static_cast<std::size_t>(cr)] != 1)
+      throw InputError(where(path, ln) + "reliable " + fmt_num(v[static_cast<std::size_t>(cr)]) + "; expected 0 or 1");
     if (!f.freq_hz.empty() && !(fr > f.freq_hz.back()))
       throw InputError(where(path, ln) + "freq_hz " + line.substr(0, line.find(',')) +
                        " does not increase; expected ascending frequencies");
-    std::complex<double> h;
-    if (cre >= 0 && !std::isnan(v[static_cast<std::size_t>(cre)])) {
-      h = {v[static_cast<std::size_t>(cre)], v[static_cast<std::size_t>(cim)]};
-    } else {
-      const double mag = std::pow(10.0, v[static_cast<std::size_t>(cm)] / 20.0);
-      h = std::polar(mag, v[static_cast<std::size_t>(cp)] * std::numbers::pi / 180.0);
+    // the response from re,im when both are given, else from mag_db,phase_deg (NaN: missing)
+    const auto at = [&](int c) { return c >= 0 ? v[static_cast<std::size_t>(c)] : nan; };
+    std::complex<double> h(nan, nan);
+    if (!std::isnan(at(cre)) && !std::isnan(at(cim))) {
+      h = {at(cre), at(cim)};
+    } else if (!std::isnan(at(cm)) && !std::isnan(at(cp))) {
+      if (std::fabs(at(cm)) > 6000)  // 10^300: beyond any measurement, and near the end of double range
+        throw InputError(where(path, ln) + "mag_db " + fmt_num(at(cm)) + "; expected -6000 to 6000 dB");
+      h = std::polar(std::pow(10.0, at(cm) / 20.0), at(cp) * std::numbers::pi / 180.0);
     }
     if (!std::isfinite(h.real()) || !std::isfinite(h.imag()))
       throw InputError(where(path, ln) + "response is missing; expected re,im or mag_db,phase_deg");

@@ -9,6 +9,7 @@
 
 #include "fit/discretize.h"
 #include "ident/error.h"
+#include "ident/json_file.h"
 
 namespace benchid::loop {
 
@@ -276,6 +277,21 @@ Controller parse_controller(const std::string& spec) {
     }
   }
   return c;
+}
+
+std::string controller_spec(const std::string& arg) {
+  if (arg.size() < 5 || arg.compare(arg.size() - 5, 5, ".json") != 0) return arg;
+  const nlohmann::json j = read_json_file(arg, "a controller JSON {\"format\": \"benchid.controller/1\", \"spec\": ...}");
+  const auto is_str = [&](const char* k) { return j.contains(k) && j[k].is_string(); };
+  if (!j.is_object() || !is_str("format") || j["format"].get<std::string>() != "benchid.controller/1" || !is_str("spec"))
+    throw InputError(arg + ": expected {\"format\": \"benchid.controller/1\", \"spec\": \"FORM:PARAMS...\"}");
+  const std::string spec = j["spec"].get<std::string>();
+  try {
+    parse_controller(spec);  // a bad spec is refused naming the file it came from
+  } catch (const InputError& e) {
+    throw InputError(where(arg) + "spec '" + spec.substr(0, 80) + "': " + e.what());
+  }
+  return spec;
 }
 
 }  // namespace benchid::loop

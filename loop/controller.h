@@ -38,4 +38,10 @@ struct Controller {
 // Throws InputError naming the form or parameter and what was expected.
 Controller parse_controller(const std::string& spec);
 
+// A controller argument: a name ending in ".json" is read as
+// {"format": "benchid.controller/1", "spec": "FORM:PARAMS..."} and its spec
+// (checked) returned; anything else is returned as it is. Throws InputError
+// naming the file.
+std::string controller_spec(const std::string& arg);
+
 }  // namespace benchid::loop

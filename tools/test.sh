@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # Builds benchid and runs the whole test suite twice: an optimised build, and
-# a build under AddressSanitizer + UndefinedBehaviorSanitizer.
+# a build under AddressSanitizer + UndefinedBehaviorSanitizer; then runs each
+# fuzz target (tests/fuzz) for a minute under the same sanitizers.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 bash tools/deps.sh --test
@@ -14,3 +15,5 @@ cmake -S . -B build-sanitize -DCMAKE_BUILD_TYPE=Debug -DCMAKE_CXX_FLAGS_DEBUG="-
 cmake --build build-sanitize -j2
 ASAN_OPTIONS=detect_leaks=1:abort_on_error=1 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
   ctest --test-dir build-sanitize --output-on-failure -j2
+# every reader of user files, fuzzed: a crash, leak, sanitizer report or broken property fails
+bash tools/fuzz.sh 60

@@ -70,6 +70,15 @@ TEST(FrfCsv, ReadsMagnitudeAndPhaseOnly) {
   EXPECT_CLOSE(g.h[1], std::complex<double>(-1, 0), 1e-12, 1e-12);
 }
 
+// Found by fuzzing (tests/fuzz): a header with "re" but no "im" read the
+// missing column at index -1 (out of bounds); now the response comes from the
+// pair that is complete.
+TEST(FrfCsv, UsesTheCompletePairWhenReHasNoIm) {
+  TempDir d;
+  const Frf g = read_frf_csv(d.write("m.csv", "freq_hz,re,mag_db,phase_deg\n1,7,20,-90\n"));
+  EXPECT_CLOSE(g.h[0], std::complex<double>(0, -10), 1e-12, 1e-12);
+}
+
 TEST(FrfCsv, RefusesBadRowsNamingTheLine) {
   TempDir d;
   auto err = [&](const std::string& body) {
@@ -85,6 +94,15 @@ TEST(FrfCsv, RefusesBadRowsNamingTheLine) {
   EXPECT_NE(err("a,b\n1,2\n").find("header lacks freq_hz"), std::string::npos);
   EXPECT_NE(err("freq_hz,re,im\n").find("no data rows"), std::string::npos);
   EXPECT_NE(err("").find("no header row"), std::string::npos);
+  // values outside their meaning (found by fuzzing)
+  EXPECT_NE(err("freq_hz,re,im\n-1,1,0\n").find("b.csv:2: freq_hz -1 is negative"), std::string::npos);
+  EXPECT_NE(err("freq_hz,re,im,rel_err\n1,1,0,-0.5\n").find("b.csv:2: rel_err -0.5; expected >= 0"), std::string::npos);
+  EXPECT_NE(err("freq_hz,re,im,reliable\n1,1,0,2\n").find("b.csv:2: reliable 2; expected 0 or 1"), std::string::npos);
+  EXPECT_NE(err("freq_hz,mag_db,phase_deg\n1,7000,0\n").find("mag_db 7000; expected -6000 to 6000 dB"), std::string::npos);
+  EXPECT_NE(err("# overlap=1.5\nfreq_hz,re,im\n1,1,0\n").find("metadata overlap=1.5; expected a number from 0 to 0.99"),
+            std::string::npos);
+  EXPECT_NE(err("# averages=2.5\nfreq_hz,re,im\n1,1,0\n").find("metadata averages=2.5; expected a whole number"),
+            std::string::npos);
 }
 
 }  // namespace
