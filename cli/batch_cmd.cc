@@ -211,7 +211,7 @@ int run_batch(const BatchArgs& a) {
   std::vector<std::string> inputs{a.manifest};
   if (!a.limits.empty()) inputs.push_back(a.limits);
   for (const Unit& u : all) inputs.push_back(u.cell.at("record"));
-  refuse_overwriting_input(a.out, inputs);
+  check_output(a.out, OutputKind::batch_results, inputs);
   std::map<std::string, std::string> done;
   if (fs::exists(a.out)) {
     if (!a.resume)
@@ -291,6 +291,7 @@ void add_batch_command(CLI::App& app) {
                 "unit per input unit), resonance_hz_min, resonance_hz_max (Hz, the lowest resonance), nrmse_max "
                 "(fraction) (an empty cell: not used)")->required();
   c->add_option("-o,--out", a->out, "Results, JSON lines (one per unit, manifest order)")->required();
+  add_force_flag(c);
   c->add_option("--jobs", a->jobs, "Units analysed at once on this machine (default 1)");
   c->add_option("--shard", a->shard, "I/N: only every N-th unit starting at the I-th (I from 0), for a job array "
                 "spread over machines; merge the shards' files with cat and sort (default: all units)");

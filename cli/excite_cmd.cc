@@ -35,6 +35,8 @@ void emit(const ident::Excitation& e, const Common& c, const ident::SweepOptions
     throw InputError("--headroom " + fmt_num(c.headroom_db) + " dB: expected 0 to 60 dB");
   const std::string side = !c.sidecar.empty() ? c.sidecar : default_sidecar(c.out);
   if (side == c.out) throw InputError("the sidecar '" + side + "' would overwrite the signal; expected another path");
+  check_output(c.out, OutputKind::signal, {});
+  check_output(side, OutputKind::sidecar, {});
   ident::SignalWriteOptions wo;
   wo.channel_name = c.name;
   wo.unit = c.unit;
@@ -63,6 +65,7 @@ void emit(const ident::Excitation& e, const Common& c, const ident::SweepOptions
 void add_common(CLI::App* s, Common& c, double& rate, double& amplitude, double& offset, bool plan = false) {
   s->add_option("-o,--out", c.out, plan ? "Also write the time signal: .csv (time + channel), .wav, .flac, .aiff or .ogg"
                                         : "Signal file: .csv (time + channel), .wav, .flac, .aiff or .ogg (by extension)");
+  add_force_flag(s);
   s->add_option(plan ? "--plan,--sidecar" : "--sidecar", c.sidecar,
                 plan ? "Plan JSON for frf --stepped (default: beside -o as NAME.excite.json)"
                      : "Sidecar JSON for frf --excitation (default: beside -o as NAME.excite.json)");

@@ -90,7 +90,7 @@ fit::FitSummary fit_record(const fit::FrfFit& f, const std::string& source) {
 namespace {
 
 void run_fit(const FitCommand& a) {
-  refuse_overwriting_input(a.out, {a.frf});
+  check_output(a.out, OutputKind::model_json, {a.frf});
   if (!a.discretize.empty() && !(a.sample_time_s > 0))
     throw InputError("--discretize needs --sample-time SECONDS (the firmware's sample period)");
   const ident::Frf frf = ident::read_frf_csv(a.frf);
@@ -190,6 +190,7 @@ void add_fit_command(CLI::App& app) {
              "1999, relaxed form of 2006); print poles and zeros as frequency and damping, and the fit quality.");
   c->add_option("frf", a->frf, "FRF CSV from 'benchid frf'")->required();
   c->add_option("-o,--out", a->out, "Model JSON to write (benchid.model/1)");
+  add_force_flag(c);
   add_fit_options(c, a->fit, false);
   c->add_option("--domain", a->domain, "s (continuous, default) or z: fit a discrete-time model directly, for a plant "
                 "measured through a digital controller (needs --sample-time)");

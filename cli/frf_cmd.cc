@@ -136,8 +136,8 @@ namespace {
 
 void run_frf(const FrfCommand& cmd) {
   const FrfArgs& a = cmd.frf;
-  refuse_overwriting_input(cmd.out, frf_inputs(a));
-  refuse_overwriting_input(cmd.report, frf_inputs(a));
+  check_output(cmd.out, OutputKind::frf_csv, frf_inputs(a));
+  check_output(cmd.report, OutputKind::frf_text, frf_inputs(a));
   if (!cmd.report.empty() && cmd.report == cmd.out)
     throw InputError("--report and -o name the same file '" + cmd.out + "'; expected two paths");
   const ident::Frf f = compute_frf(a);
@@ -222,6 +222,7 @@ void add_frf_command(CLI::App& app, const std::string& command_line) {
       "and a summary to stderr.");
   add_frf_options(c, cmd->frf, false);
   c->add_option("-o,--out", cmd->out, "FRF CSV to write (default: stdout); never an input path");
+  add_force_flag(c);
   c->add_option("--report", cmd->report, "Also write a plain-text report (settings, quality, selected lines with "
                 "error bars, warnings, caution) to this file (default: none)");
   c->add_flag("-q,--quiet", cmd->quiet, "No summary on stderr");

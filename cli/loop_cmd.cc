@@ -323,7 +323,7 @@ namespace {
 void run_loop(const LoopCommand& cmd) {
   LoopArgs a = cmd.loop;
   if (!a.controller.empty()) a.controller = controller_spec(a.controller);
-  refuse_overwriting_input(cmd.out, {cmd.plant});
+  check_output(cmd.out, OutputKind::loop_json, {cmd.plant});
   if (a.controller.empty()) throw InputError("no controller; expected --controller SPEC (e.g. pid:kp=1,ki=10)");
   bool frf_plant = false;
   {
@@ -393,6 +393,7 @@ void add_loop_command(CLI::App& app) {
   c->add_option("--sweep", a->sweep, "NAME=LO:HI:N: recompute the figures for N values of one controller parameter "
                 "(e.g. kp=0.5:2:10, linear steps) and print a table (default: none)");
   c->add_option("-o,--out", a->out, "Loop JSON to write (benchid.loop/1)");
+  add_force_flag(c);
   c->add_flag("--json", a->json, "Print only the loop JSON on stdout (the table goes to stderr)");
   c->add_flag("--strict", a->strict, "Exit status 3 when the verdict fails");
   c->callback([a] { run_loop(*a); });

@@ -10,9 +10,13 @@
 #include <cstdio>
 #include <cstring>
 #include <filesystem>
+#include <fstream>
 #include <iostream>
 
+#include <nlohmann/json.hpp>
+
 #include "ident/error.h"
+#include "ident/excite_io.h"
 
 namespace benchid::cli {
 
@@ -32,6 +36,60 @@ void refuse_overwriting_input(const std::string& out, const std::vector<std::str
 }
 
 namespace {
+
+bool g_force = false;  // --force of the running command (one command per process)
+
+const char* kind_name(OutputKind k) {
+  switch (k) {
+    case OutputKind::frf_csv: return "FRF CSV";
+    case OutputKind::frf_text: return "FRF text report";
+    case OutputKind::model_json: return "model JSON";
+    case OutputKind::loop_json: return "loop JSON";
+    case OutputKind::replay_csv: return "replay CSV";
+    case OutputKind::signal: return "excitation signal";
+    case OutputKind::sidecar: return "excitation sidecar or plan";
+    case OutputKind::html_report: return "HTML report";
+    case OutputKind::batch_results: return "batch results file";
+  }
+  return "output";
+}
+
+bool starts_with(const std::string& s, const char* prefix) { return s.rfind(prefix, 0) == 0; }
+
+// A JSON file of ours: an object whose "format" member is `format`. The
+// files are written by nlohmann::json (keys sorted, 2-space indent), but any
+// spacing is accepted; the whole file is parsed only when the text matches.
+bool is_our_json(const std::string& path, const std::string& head, const char* format) {
+  if (head.find(format) == std::string::npos) return false;
+  try {
+    std::ifstream in(path, std::ios::binary);
+    const nlohmann::json j = nlohmann::json::parse(in, nullptr, true, false);
+    return j.is_object() && j.contains("format") && j["format"].is_string() && j["format"].get<std::string>() == format;
+  } catch (const std::exception&) {
+    return false;
+  }
+}
+
+bool is_our_output(const std::string& path, OutputKind kind) {
+  std::ifstream in(path, std::ios::binary);
+  std::string head(1 << 16, '\0');
+  in.read(head.data(), static_cast<std::streamsize>(head.size()));
+  head.resize(static_cast<std::size_t>(in.gcount()));
+  if (head.empty()) return true;  // an empty file holds nothing to lose
+  switch (kind) {
+    case OutputKind::frf_csv: return starts_with(head, "# benchid frf");
+    case OutputKind::frf_text: return starts_with(head, "benchid frequency-response report");
+    case OutputKind::model_json: return is_our_json(path, head, "benchid.model/1");
+    case OutputKind::loop_json: return is_our_json(path, head, "benchid.loop/1");
+    case OutputKind::replay_csv: return starts_with(head, "# benchid replay");
+    case OutputKind::signal: return starts_with(head, "# benchid excite") || ident::is_benchid_sound_file(path);
+    case OutputKind::sidecar: return is_our_json(path, head, "benchid.excitation/1");
+    case OutputKind::html_report:
+      return starts_with(head, "<!DOCTYPE html>") && head.find("<title>benchid report:") != std::string::npos;
+    case OutputKind::batch_results: return starts_with(head, "{\"unit\":");
+  }
+  return false;
+}
 
 // Temporaries being written, for the signal handler to remove: fixed slots
 // of plain characters, since a handler may only use async-signal-safe
@@ -83,6 +141,27 @@ std::string make_temp(const std::string& path, int& fd) {
   return tmpl;
 }
 }  // namespace
+
+void check_output(const std::string& out, OutputKind kind, const std::vector<std::string>& inputs) {
+  if (out.empty() || out == "-") return;
+  refuse_overwriting_input(out, inputs);
+  std::error_code ec;
+  const fs::file_status st = fs::status(out, ec);
+  if (ec || !fs::exists(st)) return;
+  if (fs::is_directory(st)) throw InputError("output '" + out + "' is a directory; expected a file name");
+  if (g_force) return;
+  if (!fs::is_regular_file(st))
+    throw InputError("output '" + out + "' exists and is not a regular file; expected a new name, or --force to write to it");
+  if (!is_our_output(out, kind))
+    throw InputError("output '" + out + "' exists and is not an earlier benchid " + kind_name(kind) +
+                     "; expected a new name, or --force to replace it");
+}
+
+void add_force_flag(CLI::App* command) {
+  command->add_flag("--force", g_force,
+                    "Replace existing output files even when they are not benchid's own earlier results of the same "
+                    "kind (inputs are never replaced)");
+}
 
 void install_stop_handlers() {
   struct sigaction sa {};

@@ -4,6 +4,8 @@
 #pragma once
 
 #include <string>
+
+#include <CLI/CLI.hpp>
 #include <vector>
 
 namespace benchid::cli {
@@ -14,6 +16,27 @@ void install_stop_handlers();
 
 // Throws InputError when `out` names the same file as any of `inputs`.
 void refuse_overwriting_input(const std::string& out, const std::vector<std::string>& inputs);
+
+// What an output file holds, told from its first bytes when it exists.
+enum class OutputKind {
+  frf_csv,        // "# benchid frf" (frf -o, report --keep)
+  frf_text,       // "benchid frequency-response report" (frf --report)
+  model_json,     // {"format": "benchid.model/1"} (fit -o, report --keep)
+  loop_json,      // {"format": "benchid.loop/1"} (loop -o, report --keep)
+  replay_csv,     // "# benchid replay" (replay -o)
+  signal,         // "# benchid excite" CSV, or a sound file whose software tag is benchid's (excite -o)
+  sidecar,        // {"format": "benchid.excitation/1"} (excite --sidecar/--plan)
+  html_report,    // <title>benchid report: (report -o)
+  batch_results,  // JSON lines starting {"unit": (batch -o)
+};
+// The overwrite rule for every output file: an output may replace an
+// existing file only when that file is empty or is benchid's own earlier
+// result of the same kind (or --force was given); never an input, never a
+// directory. Throws InputError naming the file and what was expected. "-"
+// (standard output) and "" (no output) pass.
+void check_output(const std::string& out, OutputKind kind, const std::vector<std::string>& inputs);
+// Adds --force (replace existing outputs that are not benchid's own) to a command.
+void add_force_flag(CLI::App* command);
 // Writes `content` to `path` atomically ("-" writes to stdout).
 void write_file_atomically(const std::string& path, const std::string& content);
 

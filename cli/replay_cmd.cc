@@ -77,7 +77,7 @@ struct ReplayArgs {
 };
 
 void run_replay(const ReplayArgs& a) {
-  refuse_overwriting_input(a.out, {a.model, a.record});
+  check_output(a.out, OutputKind::replay_csv, {a.model, a.record});
   const fit::RationalModel m = fit::read_model_json(a.model);
   ident::ReadOptions ro;
   ro.rate_hz = a.rate_hz;
@@ -173,6 +173,7 @@ void add_replay_command(CLI::App& app) {
                 "failed for negligible correlation (default 0.1)");
   c->add_option("-o,--out", a->out, "CSV of time, measured, simulated and residual output, written as the record is "
                 "replayed ('-': stdout); the verdict is its last line");
+  add_force_flag(c);
   c->add_option("--split", a->split, "Score only the last fraction F of the record: the part that 'frf --split F' "
                 "left out of the estimate, so the model is validated on data it was not fitted to (default 0: all)");
   c->add_option("--stream-above", a->stream_above, "Records longer than this many samples are replayed in two "

@@ -112,8 +112,10 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   };
   if (paths.report.empty()) throw InputError("no report file; expected -o REPORT.html");
   std::vector<std::string> inputs = frf_inputs(a.frf);
-  for (const std::string& out : {paths.report, paths.frf, paths.model, paths.loop})
-    refuse_overwriting_input(out, inputs);
+  check_output(paths.report, OutputKind::html_report, inputs);
+  check_output(paths.frf, OutputKind::frf_csv, inputs);
+  check_output(paths.model, OutputKind::model_json, inputs);
+  check_output(paths.loop, OutputKind::loop_json, inputs);
   if (!a.keep_dir.empty() && !fs::is_directory(a.keep_dir))
     throw InputError("--keep " + a.keep_dir + ": not a directory; expected an existing folder for the FRF, model and loop files");
 
@@ -225,6 +227,7 @@ void add_report_command(CLI::App& app, const std::string& command_line) {
                 "--controller, the loop figures; writes one self-contained HTML report (inline SVG plots) and, "
                 "beside it, the FRF CSV, model JSON and loop JSON. Nothing is written unless every stage succeeds.");
   c->add_option("-o,--out", *out, "HTML report to write")->required();
+  add_force_flag(c);
   add_report_options(c, *a);
   c->add_flag("-q,--quiet", *quiet, "No summary");
   c->callback([a, out, quiet, command_line] {

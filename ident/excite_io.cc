@@ -32,6 +32,16 @@ std::string ext_of(const std::string& name) {
 }
 }  // namespace
 
+bool is_benchid_sound_file(const std::string& path) {
+  SF_INFO info{};
+  SNDFILE* f = sf_open(path.c_str(), SFM_READ, &info);
+  if (!f) return false;
+  const char* sw = sf_get_string(f, SF_STR_SOFTWARE);
+  const bool ours = sw && std::string(sw).rfind(kSoundSoftwareTag, 0) == 0;
+  sf_close(f);
+  return ours;
+}
+
 bool is_sound_name(const std::string& name) {
   const std::string e = ext_of(name);
   return e == "wav" || e == "flac" || e == "aiff" || e == "aif" || e == "ogg";
@@ -78,6 +88,9 @@ void write_signal(const std::string& path, const std::string& format_from, const
   SNDFILE* f = sf_open(path.c_str(), SFM_WRITE, &info);
   if (!f) throw InputError("cannot write '" + format_from + "': " + sf_strerror(nullptr));
   sf_command(f, SFC_SET_CLIPPING, nullptr, SF_TRUE);
+  // the software tag marks the file as benchid's own, so a later run may replace it
+  // (formats without string chunks ignore it)
+  sf_set_string(f, SF_STR_SOFTWARE, kSoundSoftwareTag);
   const sf_count_t n = static_cast<sf_count_t>(e.samples.size());
   const sf_count_t w = sf_writef_double(f, e.samples.data(), n);
   const int rc = sf_close(f);

@@ -34,6 +34,10 @@ struct SignalWriteOptions {
 void write_signal(const std::string& path, const std::string& format_from, const Excitation& e,
                   const SignalWriteOptions& o);
 bool is_sound_name(const std::string& name);
+// Sound files written by write_signal carry this software tag (in formats with
+// string chunks: WAV, FLAC, Ogg); is_benchid_sound_file tells them apart.
+inline constexpr const char* kSoundSoftwareTag = "benchid excite";
+bool is_benchid_sound_file(const std::string& path);
 
 // Sidecar as JSON text (2-space indent).
 std::string sidecar_json(const Excitation& e, const std::string& signal_file,
