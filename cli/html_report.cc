@@ -550,6 +550,7 @@ std::string html_report(const ReportData& d) {
     const LoopAnalysis* lf = d.loop_frf;
     const auto pm_row = [&](const std::string& name, double v_model, double v_frf, double sd, const char* f, const std::string& unit) {
       std::string c2 = fmt(f, v_model), c3 = lf ? fmt(f, v_frf) : "&ndash;";
+      if (lf && lf->crossover_above_band && !std::isfinite(v_frf)) c3 = "unknown (|L| &ge; 1 at the top of the band)";
       if (lf && std::isfinite(sd)) c3 += " &plusmn; " + fmt(f, sd);
       return row({name + " (" + unit + ")", c2, c3});
     };
@@ -565,7 +566,7 @@ std::string html_report(const ReportData& d) {
       << pm_row("closed-loop bandwidth (|T| &minus;3 dB)", m.bandwidth_hz, lf ? lf->m.bandwidth_hz : NAN, NAN, "%.4g", "Hz");
     if (la.step)
       o << row({"step: rise 10&ndash;90 % / overshoot / settling 2 %",
-                fmt("%.4g", la.step->rise_time_s * 1e3) + " ms / " + fmt("%.3g", la.step->overshoot_pct) + " % / " +
+                (std::isfinite(la.step->rise_time_s) ? fmt("%.4g", la.step->rise_time_s * 1e3) + " ms" : std::string("none")) + " / " + fmt("%.3g", la.step->overshoot_pct) + " % / " +
                     fmt("%.4g", la.step->settling_time_s * 1e3) + " ms",
                 "&ndash;"});
     o << row({"closed loop stable", la.st.judged ? (la.st.stable ? "yes" : "<span class=\"fail\">NO</span>") : "not judged",

@@ -181,9 +181,16 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
     step = loop::step_metrics(lf, m.crossover_hz, lowest, ref);
     step_note.clear();
   }
+  // A measured plant is known only in its band: when |L| is still >= 1 at the
+  // top of the band, the gain crossover (and any phase crossing after it)
+  // lies above the measurement, so "no crossover" would be a wrong claim.
+  const double l_top = frf_plant ? std::abs(loop_at(m.f_hi_hz)) : 0.0;
+  const bool beyond_band = frf_plant && !(l_top < 1.0);
+  const bool pm_known = !(beyond_band && std::isinf(m.phase_margin_deg));
+  const bool gm_known = !(beyond_band && std::isinf(m.gain_margin_db));
   const std::vector<LoopCheck> checks{
-      {"phase_margin_deg >=", a.pm_min, m.phase_margin_deg, m.phase_margin_deg >= a.pm_min},
-      {"gain_margin_db >=", a.gm_min, m.gain_margin_db, m.gain_margin_db >= a.gm_min},
+      {"phase_margin_deg >=", a.pm_min, m.phase_margin_deg, pm_known && m.phase_margin_deg >= a.pm_min},
+      {"gain_margin_db >=", a.gm_min, m.gain_margin_db, gm_known && m.gain_margin_db >= a.gm_min},
       {"peak_sensitivity_db <=", a.ms_max_db, ms_db, ms_db <= a.ms_max_db}};
   bool pass = st.judged && st.stable;  // and, below, every figure inside the fitted band
   for (const auto& k : checks) pass = pass && k.pass;
@@ -218,12 +225,14 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
       << " left out as unreliable or with rel_err > 0.25; margins within the band of the lines used)"
       << (fm.draws ? ", +- is 1 s.d. from " + std::to_string(fm.draws) + " Monte Carlo draws of the per-line random error" : "")
       << "\n";
-  t << "  gain margin      " << (std::isinf(m.gain_margin_db) ? std::string("infinite") : fmt("%.4g", m.gain_margin_db) + pm_unc(fm.gm_sd_db) + " dB at " + fmt("%.5g Hz", m.gain_margin_hz))
+  const std::string above = "unknown: |L| = " + fmt("%.3g", l_top) + " at the top of the measured band (" +
+                            fmt("%.5g Hz", m.f_hi_hz) + "), so the crossover lies above it";
+  t << "  gain margin      " << (!gm_known ? above : std::isinf(m.gain_margin_db) ? std::string("infinite") : fmt("%.4g", m.gain_margin_db) + pm_unc(fm.gm_sd_db) + " dB at " + fmt("%.5g Hz", m.gain_margin_hz))
     << "   [>= " << fmt("%g", a.gm_min) << " dB: " << mark(checks[1].pass) << "]\n";
   if (std::isfinite(m.lower_gain_margin_db)) t << "  lower gain margin " << fmt("%.4g dB", m.lower_gain_margin_db) << " (conditionally stable: how far the gain may fall)\n";
-  t << "  phase margin     " << (std::isinf(m.phase_margin_deg) ? std::string("infinite (no gain crossover)") : fmt("%.4g", m.phase_margin_deg) + pm_unc(fm.pm_sd_deg) + " deg at " + fmt("%.5g Hz", m.crossover_hz))
+  t << "  phase margin     " << (!pm_known ? above : std::isinf(m.phase_margin_deg) ? std::string("infinite (no gain crossover)") : fmt("%.4g", m.phase_margin_deg) + pm_unc(fm.pm_sd_deg) + " deg at " + fmt("%.5g Hz", m.crossover_hz))
     << "   [>= " << fmt("%g", a.pm_min) << " deg: " << mark(checks[0].pass) << "]\n";
-  t << "  delay margin     " << (std::isinf(m.delay_margin_s) ? std::string("infinite") : fmt("%.4g ms", m.delay_margin_s * 1e3)) << "\n";
+  t << "  delay margin     " << (!pm_known ? std::string("unknown (no gain crossover in the band)") : std::isinf(m.delay_margin_s) ? std::string("infinite") : fmt("%.4g ms", m.delay_margin_s * 1e3)) << "\n";
   t << "  peak sensitivity Ms " << fmt("%.4g", m.ms) << " (" << fmt("%.3g", ms_db) << pm_unc(fm.ms_sd_db) << " dB) at " << fmt("%.5g Hz", m.ms_hz)
     << "; modulus margin " << fmt("%.3g", 1 / m.ms) << "   [<= " << fmt("%g", a.ms_max_db) << " dB: " << mark(checks[2].pass) << "]\n";
   t << "  peak complementary sensitivity Mt " << fmt("%.4g", m.mt) << " (" << fmt("%.3g dB", mt_db) << ") at " << fmt("%.5g Hz", m.mt_hz) << "\n";
@@ -231,7 +240,9 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
     << (a.tracking_hz > 0 ? "" : " (a decade below the crossover)") << "\n";
   t << "  closed-loop bandwidth " << (std::isfinite(m.bandwidth_hz) ? fmt("%.5g Hz", m.bandwidth_hz) : std::string("not found in the range")) << " (|T| 3 dB below its low-frequency value)\n";
   if (step)
-    t << "  step (reference): rise " << fmt("%.4g s", step->rise_time_s) << " (10-90 %), overshoot "
+    t << "  step (reference): rise "
+      << (std::isfinite(step->rise_time_s) ? fmt("%.4g s", step->rise_time_s) : std::string("none (the final value is 0)"))
+      << " (10-90 %), overshoot "
       << fmt("%.3g %%", step->overshoot_pct) << ", settling " << fmt("%.4g s", step->settling_time_s)
       << " (2 %), steady-state error " << fmt("%.3g", step->steady_state_error) << "\n"
       << "  step (output disturbance): peak " << fmt("%.3g", step->disturbance_peak) << ", back within 2 % after "
@@ -267,6 +278,7 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
   j["gain_margin_hz"] = num_or_null(m.gain_margin_hz);
   j["lower_gain_margin_db"] = num_or_null(m.lower_gain_margin_db);
   j["phase_margin_deg"] = num_or_null(m.phase_margin_deg);
+  if (frf_plant) j["crossover_above_band"] = beyond_band;  // true: the null margins are unknown, not infinite
   j["crossover_hz"] = num_or_null(m.crossover_hz);
   j["delay_margin_s"] = num_or_null(m.delay_margin_s);
   j["peak_sensitivity_db"] = ms_db;
@@ -293,7 +305,7 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
   j["crossings"] = cr;
   j["crossings_total"] = m.crossings.size();  // the first 50 are listed
   if (step)
-    j["step"] = {{"rise_time_s", step->rise_time_s},
+    j["step"] = {{"rise_time_s", num_or_null(step->rise_time_s)},
                  {"overshoot_pct", step->overshoot_pct},
                  {"settling_time_s", step->settling_time_s},
                  {"steady_state_error", step->steady_state_error},
@@ -311,6 +323,7 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
   out.step = std::move(step);
   out.step_note = step_note;
   out.checks = checks;
+  out.crossover_above_band = beyond_band;
   out.outside_band = outside;
   out.pass = pass;
   out.text = t.str();

@@ -112,6 +112,8 @@ struct LoopAnalysis {
   loop::Margins m;
   loop::Stability st;
   loop::FrfMargins fm;                      // FRF plant only
+  bool crossover_above_band = false;        // FRF plant: |L| >= 1 at the top of the band, the
+                                            // crossover (and the margins) lie above the measurement
   double band_lo_hz = 0, band_hi_hz = 0;    // the model's fitted band, when known
   double track_hz = 0, tracking = 0;
   std::optional<loop::StepMetrics> step;

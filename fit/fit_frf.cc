@@ -113,6 +113,11 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
       continue;
     }
     ++in_band;
+    if (f == 0 && o.vf.integrators > 0) {  // an integrator's response at DC is infinite: no equation there
+      ++out.left_out_unreliable;
+      out.warnings.push_back("the DC line is left out: a model with integrators is infinite at 0 Hz");
+      continue;
+    }
     const bool ok = (frf.reliable.empty() || frf.reliable[k]) && std::abs(frf.h[k]) > 0 &&
                     (out.weighting != Weighting::inverse_variance || std::isfinite(frf.rel_err[k]));
     if (!ok) {

@@ -338,7 +338,10 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
                      " fit (" + std::to_string(params) + " real parameters); expected at least one line per "
                      "parameter, or a lower --order");
   const Prepared p = prepare(d, o);
-  const double w_lo = p.omega.front(), w_hi = p.omega.back();
+  // starting poles span the band's positive lines (a DC line, omega = 0, is fitted like any other)
+  const auto first_ac = std::find_if(p.omega.begin(), p.omega.end(), [](double w) { return w > 0; });
+  if (first_ac == p.omega.end()) throw InputError("only a DC line to fit; expected lines above 0 Hz");
+  const double w_lo = *first_ac, w_hi = p.omega.back();
   std::vector<cplx> poles = starting_poles(o.order, w_lo, w_hi);
   if (o.domain == Domain::z) {
     if (w_hi * o.sample_time_s >= std::numbers::pi * (1 + 1e-9))

@@ -136,8 +136,25 @@ std::pair<double, double> loop_range(const fit::RationalModel& plant, const Cont
   if (!std::isfinite(lo)) lo = hi = 1.0;  // only integrators and gains
   double f_lo = o.f_lo_hz > 0 ? o.f_lo_hz : lo / 1000 / (2 * std::numbers::pi);
   double f_hi = o.f_hi_hz > 0 ? o.f_hi_hz : hi * 1000 / (2 * std::numbers::pi);
+  bool discrete = false;
   for (const fit::RationalModel* m : {&plant, &c.model})
-    if (m->domain == fit::Domain::z) f_hi = std::min(f_hi, 0.4999 / m->sample_time_s);
+    if (m->domain == fit::Domain::z) f_hi = std::min(f_hi, 0.4999 / m->sample_time_s), discrete = true;
+  // The poles and zeros do not bound the crossings of a loop made only of
+  // gains and integrators, or one whose gain is far from 1 there (k/s with
+  // k = 1e6 crosses at 1e6 rad/s): widen the range a decade at a time while
+  // |L| at an end still changes by more than 1 % a decade and has not yet
+  // left [0.01, 100] in the direction it moves, at most 6 decades each way.
+  // At the ends |L| is then below 0.01, above 100 or flat, so no crossing
+  // lies beyond and |S| there is within about 5e-5 of its limit (or flat).
+  const auto mag = [&](double f) { return std::abs(plant.response(f) * c.model.response(f)); };
+  const auto moving = [](double at_end, double beyond) {
+    if (!std::isfinite(at_end) || !std::isfinite(beyond)) return false;
+    return (at_end >= 0.01 && beyond < 0.99 * at_end) || (at_end <= 100 && beyond > 1.01 * at_end);
+  };
+  if (!(o.f_hi_hz > 0) && !discrete)
+    for (int i = 0; i < 6 && moving(mag(f_hi), mag(10 * f_hi)); ++i) f_hi *= 10;
+  if (!(o.f_lo_hz > 0))
+    for (int i = 0; i < 6 && moving(mag(f_lo), mag(f_lo / 10)); ++i) f_lo /= 10;
   return {f_lo, f_hi};
 }
 

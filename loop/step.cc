@@ -30,10 +30,17 @@ std::vector<double> step_of(const std::function<cplx(double)>& h_of_f, std::size
   return y;
 }
 
-// first time (interpolated) at which y crosses level going upward
+// first time (interpolated) at which y reaches level, moving from 0 towards
+// it (upward for a positive level, downward for a negative one); 0 when the
+// response starts at or beyond it (a loop with feedthrough jumps at t = 0);
+// NaN for level 0 or when it is never reached
 double crossing(const std::vector<double>& y, double dt, double level) {
+  if (level == 0 || y.empty()) return std::numeric_limits<double>::quiet_NaN();
+  const double sg = level > 0 ? 1.0 : -1.0;
+  if (sg * y[0] >= sg * level) return 0.0;
   for (std::size_t i = 1; i < y.size(); ++i)
-    if (y[i - 1] < level && y[i] >= level) return dt * (static_cast<double>(i - 1) + (level - y[i - 1]) / (y[i] - y[i - 1]));
+    if (sg * y[i - 1] < sg * level && sg * y[i] >= sg * level)
+      return dt * (static_cast<double>(i - 1) + (level - y[i - 1]) / (y[i] - y[i - 1]));
   return std::numeric_limits<double>::quiet_NaN();
 }
 
