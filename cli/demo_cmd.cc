@@ -5,6 +5,7 @@
 #include <memory>
 
 #include "cli/commands.h"
+#include "cli/output.h"
 #include "cli/report.h"
 #include "ident/error.h"
 
@@ -65,6 +66,7 @@ void add_demo_command(CLI::App& app) {
               "scenarios of a belt-driven axis (random noise, CSV), a voice-coil actuator (log sweep, stereo WAV) and "
               "a pump speed loop (closed loop with a reference, CSV). Prints where the reports are.");
   c->add_option("-o,--out", *out, "Folder for the reports (made if missing; default benchid_demo)");
+  add_force_flag(c);
   c->add_option("--data", *data, "Folder holding the demo recordings (default: datasets_demo/ of the source tree "
                 "this benchid was built from)");
   c->callback([out, data] {

@@ -17,6 +17,7 @@
 
 #include "ident/error.h"
 #include "ident/excite_io.h"
+#include "ident/json_file.h"
 
 namespace benchid::cli {
 
@@ -56,14 +57,12 @@ const char* kind_name(OutputKind k) {
 
 bool starts_with(const std::string& s, const char* prefix) { return s.rfind(prefix, 0) == 0; }
 
-// A JSON file of ours: an object whose "format" member is `format`. The
-// files are written by nlohmann::json (keys sorted, 2-space indent), but any
-// spacing is accepted; the whole file is parsed only when the text matches.
-bool is_our_json(const std::string& path, const std::string& head, const char* format) {
-  if (head.find(format) == std::string::npos) return false;
+// A JSON file of ours: an object whose "format" member is `format`, read
+// with the limits of every JSON input (64 MiB, 64 levels); the member may lie
+// anywhere in the file (keys are written sorted), so the whole file is parsed.
+bool is_our_json(const std::string& path, const char* format) {
   try {
-    std::ifstream in(path, std::ios::binary);
-    const nlohmann::json j = nlohmann::json::parse(in, nullptr, true, false);
+    const nlohmann::json j = read_json_file(path, "a benchid JSON file");
     return j.is_object() && j.contains("format") && j["format"].is_string() && j["format"].get<std::string>() == format;
   } catch (const std::exception&) {
     return false;
@@ -79,11 +78,11 @@ bool is_our_output(const std::string& path, OutputKind kind) {
   switch (kind) {
     case OutputKind::frf_csv: return starts_with(head, "# benchid frf");
     case OutputKind::frf_text: return starts_with(head, "benchid frequency-response report");
-    case OutputKind::model_json: return is_our_json(path, head, "benchid.model/1");
-    case OutputKind::loop_json: return is_our_json(path, head, "benchid.loop/1");
+    case OutputKind::model_json: return is_our_json(path, "benchid.model/1");
+    case OutputKind::loop_json: return is_our_json(path, "benchid.loop/1");
     case OutputKind::replay_csv: return starts_with(head, "# benchid replay");
     case OutputKind::signal: return starts_with(head, "# benchid excite") || ident::is_benchid_sound_file(path);
-    case OutputKind::sidecar: return is_our_json(path, head, "benchid.excitation/1");
+    case OutputKind::sidecar: return is_our_json(path, "benchid.excitation/1");
     case OutputKind::html_report:
       return starts_with(head, "<!DOCTYPE html>") && head.find("<title>benchid report:") != std::string::npos;
     case OutputKind::batch_results: return starts_with(head, "{\"unit\":");

@@ -6,10 +6,12 @@
 // measurement software (a measurement log is never lost to a typo in -o).
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cstdint>
 #include <filesystem>
 #include <fstream>
 #include <string>
+#include <vector>
 
 #include "tests/support/run_cli.h"
 #include "tests/support/temp_dir.h"
@@ -129,6 +131,26 @@ TEST(Overwrite, SoundFilesAreToldApartByBenchidsSoftwareTag) {
                  "is not an earlier benchid excitation sidecar or plan");
   EXPECT_FALSE(fs::exists(d.file("new.wav")));
   expect_no_temporaries(d);
+}
+
+// Nothing is written but the outputs asked for: the directory holds exactly
+// the inputs and those outputs afterwards (no stray or temporary files).
+TEST(Overwrite, OnlyTheRequestedFilesAppear) {
+  TempDir d;
+  const std::string rec = d.write("rec.csv", slurp(kOk + "record.csv"));
+  auto listing = [&] {
+    std::vector<std::string> names;
+    for (const auto& e : fs::directory_iterator(d.path())) names.push_back(e.path().filename().string());
+    std::sort(names.begin(), names.end());
+    return names;
+  };
+  ASSERT_EQ(run_benchid(d, "frf " + rec + " --input u --output y -q -o " + d.file("h.csv") + " --report " + d.file("h.txt")).code, 0);
+  EXPECT_EQ(listing(), (std::vector<std::string>{"h.csv", "h.txt", "rec.csv"}));
+  ASSERT_EQ(run_benchid(d, "excite steps -q --rate 1000 --f0 5 --f1 50 --count 3 --plan " + d.file("p.json")).code, 0);
+  EXPECT_EQ(listing(), (std::vector<std::string>{"h.csv", "h.txt", "p.json", "rec.csv"}));
+  const Outcome lp = run_benchid(d, "loop " + kOk + "model.json --controller pid:kp=1,ki=1 -o " + d.file("l.json"));
+  ASSERT_EQ(lp.code, 0) << lp.err;
+  EXPECT_EQ(listing(), (std::vector<std::string>{"h.csv", "h.txt", "l.json", "p.json", "rec.csv"}));
 }
 
 }  // namespace
