@@ -13,6 +13,7 @@
 #include "fit/model.h"
 #include "fit/vector_fit.h"
 #include "ident/error.h"
+#include "tests/support/pole_error.h"
 
 using namespace benchid::fit;
 
@@ -48,16 +49,7 @@ benchid::ident::Frf frf_of(const RationalModel& m, double f_lo, double f_hi, int
   return f;
 }
 
-// Worst relative distance from each true pole to the nearest fitted one.
-double pole_error(const std::vector<cplx>& truth, const std::vector<cplx>& got) {
-  double worst = 0;
-  for (const cplx& p : truth) {
-    double best = 1e300;
-    for (const cplx& q : got) best = std::min(best, std::abs(p - q) / std::abs(p));
-    worst = std::max(worst, best);
-  }
-  return worst;
-}
+using benchid::test::pole_error;
 
 // Worst relative error of the fitted response over the lines.
 double response_error(const RationalModel& m, const benchid::ident::Frf& f) {

@@ -16,6 +16,7 @@
 #include "fit/vector_fit.h"
 #include "ident/error.h"
 #include "tests/support/expect_close.h"
+#include "tests/support/pole_error.h"
 #include "tests/support/signals.h"
 #include "tests/support/temp_dir.h"
 
@@ -36,16 +37,7 @@ RationalModel scipy_model() {
   return m;
 }
 
-// Worst relative distance from each true pole to the nearest fitted one.
-double pole_error(const std::vector<cplx>& truth, const std::vector<cplx>& got) {
-  double worst = 0;
-  for (const cplx& p : truth) {
-    double best = 1e300;
-    for (const cplx& q : got) best = std::min(best, std::abs(p - q) / std::abs(p));
-    worst = std::max(worst, best);
-  }
-  return worst;
-}
+using benchid::test::pole_error;
 
 FitData sample(const RationalModel& m, double f_lo, double f_hi, int n) {
   FitData d;
