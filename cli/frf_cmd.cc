@@ -11,6 +11,7 @@
 #include "cli/output.h"
 #include "cli/parse.h"
 #include "cli/text_report.h"
+#include "ident/chain.h"
 #include "ident/error.h"
 #include "ident/frf.h"
 #include "ident/frf_csv.h"
@@ -36,6 +37,7 @@ std::vector<std::string> frf_inputs(const FrfArgs& a) {
   std::vector<std::string> v{a.record};
   if (!a.excitation.empty()) v.push_back(a.excitation);
   if (!a.stepped.empty()) v.push_back(a.stepped);
+  if (!a.calibrate.empty()) v.push_back(a.calibrate);
   return v;
 }
 
@@ -66,6 +68,30 @@ ident::Frf compute_frf(const FrfArgs& a) {
       throw InputError("--scale '" + s + "': expected CH:FACTOR, e.g. 2:10.5");
     reader->set_scale(reader->channel_index(s.substr(0, c)), parse_number(s.substr(c + 1), "--scale factor"));
   }
+  // chain corrections name the input or the output channel
+  ident::ChainCorrection chain;
+  const std::size_t in_ch = reader->channel_index(a.input), out_ch = reader->channel_index(a.output);
+  const auto which = [&](const std::string& spec, const std::string& option) -> int {
+    const std::size_t c = reader->channel_index(spec);
+    if (c == in_ch) return 0;
+    if (c == out_ch) return 1;
+    throw InputError(option + " '" + spec + "': channel '" + reader->info().channels[c].name +
+                     "' is neither the input nor the output (a reference's shift or sign cancels in the FRF); "
+                     "expected '" + a.input + "' or '" + a.output + "'");
+  };
+  for (const auto& s : a.lags) {
+    const auto c = s.rfind(':');
+    if (c == std::string::npos || c == 0) throw InputError("--lag '" + s + "': expected CH:SECONDS, e.g. y:0.00125");
+    const double lag = parse_number(s.substr(c + 1), "--lag seconds");
+    (which(s.substr(0, c), "--lag") == 0 ? chain.input_lag_s : chain.output_lag_s) += lag;
+  }
+  for (const auto& s : a.inverts) (which(s, "--invert") == 0 ? chain.invert_input : chain.invert_output) ^= true;
+  std::optional<ident::Frf> calibration;
+  if (!a.calibrate.empty()) {
+    calibration = ident::read_frf_csv(a.calibrate);
+    chain.calibration = &*calibration;
+    chain.calibration_name = a.calibrate;
+  }
   ident::FrfOptions o;
   o.prefetch = a.threads != 1;
   if (a.segment) o.welch.segment = a.segment;
@@ -80,6 +106,11 @@ ident::Frf compute_frf(const FrfArgs& a) {
   o.confidence = a.confidence;
   o.loop_gain = a.loop_gain;
   o.holdout_fraction = a.split;
+  o.from_s = a.from_s;
+  o.to_s = a.to_s;
+  if ((a.from_s > 0 || a.to_s > 0) && a.split > 0)
+    throw InputError("--split with --from/--to: 'replay --split' holds out a fraction of the whole record; expected "
+                     "one or the other");
   if (!a.band.empty()) {
     const Band b = parse_band(a.band, "--band");
     o.band_lo_hz = b.lo_hz;
@@ -88,6 +119,8 @@ ident::Frf compute_frf(const FrfArgs& a) {
   ident::Frf f;
   if (stepped) {
     if (!a.reference.empty()) throw InputError("a stepped-sine FRF takes no --reference");
+    if (a.from_s > 0 || a.to_s > 0)
+      throw InputError("--from/--to do not apply to a stepped sine (the plan places each step); expected --plan-offset");
     ident::SteppedOptions so;
     so.offset_s = a.plan_offset_s;
     so.refine_frequency = a.refine_frequency;
@@ -129,6 +162,10 @@ ident::Frf compute_frf(const FrfArgs& a) {
                        fmt_num(side->excitation.rate_hz) + " Hz; expected the same rate");
     f.excitation = side->excitation.kind + " from " + side_path;
   }
+  if (calibration && std::fabs(calibration->rate_hz - f.rate_hz) > 1e-6 * f.rate_hz && calibration->rate_hz > 0)
+    throw InputError(a.calibrate + ": measured at " + fmt_num(calibration->rate_hz) + " Hz, the record at " +
+                     fmt_num(f.rate_hz) + " Hz; expected a loopback measured with the same settings");
+  ident::correct_chain(f, chain);
   return f;
 }
 
@@ -205,6 +242,15 @@ void add_frf_options(CLI::App* c, FrfArgs& a, bool pipeline) {
                 "(default 0; with --excitation, 1 when it has 3 or more periods)");
   c->add_option("--split", a.split, "Hold out the last fraction F of the record (0 to 0.9): the FRF uses the first "
                 "part only, and 'replay --split F' validates the fitted model on the rest (default 0)");
+  c->add_option("--lag", a.lags, "CH:SECONDS: the channel's samples are late by SECONDS (fractional samples and "
+                "negative values allowed; repeatable); corrected as a linear phase on the spectra. Converter latency "
+                "and channel skew: one sample at 8 kHz is 4.5 deg at 100 Hz");
+  c->add_option("--invert", a.inverts, "CH: the channel's polarity is flipped (a sensor mounted the other way round; "
+                "repeatable)");
+  c->add_option("--calibrate", a.calibrate, "Loopback FRF CSV of the measuring chain alone, measured with the same "
+                "settings: the FRF is divided by it line by line and the errors of both combined");
+  c->add_option("--from", a.from_s, "Leave out the samples before this time, s from the first sample (default 0)");
+  c->add_option("--to", a.to_s, "Leave out the samples from this time on, s from the first sample (default: the end)");
   c->add_flag("--loop-gain", a.loop_gain, "Injection measurement: --reference is the injected signal, --input the "
               "signal after the injection point, --output the signal returning to it; reports L = -G_ry/G_ru");
   if (!pipeline)

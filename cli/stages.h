@@ -52,11 +52,16 @@ struct FrfArgs {
   double jitter = ident::ReadOptions{}.jitter_tolerance;
   bool loop_gain = false;
   std::size_t threads = 0;  // threads reading the record: 0 = one per core, 1 = none besides the caller
+  // measuring-chain corrections (ident/chain.h)
+  std::vector<std::string> lags;     // CH:SECONDS, the channel's samples are late by SECONDS
+  std::vector<std::string> inverts;  // CH, polarity flipped
+  std::string calibrate;             // loopback FRF CSV of the chain alone
+  double from_s = 0, to_s = 0;       // seconds from the first sample kept (to 0: the end)
 };
 // pipeline: the options `report` takes too (without --band, which is the fit's there).
 void add_frf_options(CLI::App* c, FrfArgs& a, bool pipeline);
 ident::Frf compute_frf(const FrfArgs& a);
-// The paths compute_frf reads (the record and any sidecar), for overwrite checks.
+// The paths compute_frf reads (the record, any sidecar, the calibration FRF), for overwrite checks.
 std::vector<std::string> frf_inputs(const FrfArgs& a);
 
 // ---- replay ----------------------------------------------------------------

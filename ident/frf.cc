@@ -54,6 +54,9 @@ void validate(const FrfOptions& o) {
     throw InputError("confidence = " + num(o.confidence) + ": must be in [0.5, 0.9999]");
   if (o.period == 1) throw InputError("period = 1: must be at least 2 samples");
   if (o.block_frames < 1) throw InputError("block_frames = 0: must be at least 1");
+  if (!(o.from_s >= 0) || !std::isfinite(o.from_s) || !(o.to_s >= 0) || !std::isfinite(o.to_s) ||
+      (o.to_s > 0 && !(o.to_s > o.from_s)))
+    throw InputError("from " + num(o.from_s) + " s to " + num(o.to_s) + " s: expected 0 <= from < to (to 0: the end)");
   if (!(o.holdout_fraction >= 0 && o.holdout_fraction <= 0.9))
     throw InputError("split = " + num(o.holdout_fraction) + ": the held-out fraction must be in [0, 0.9]");
 }
@@ -359,12 +362,41 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   std::vector<std::vector<double>> block;
   Frf f;
   std::size_t samples = 0;
-  // with a hold-out, only the first (1 - fraction) of the record is read
-  std::size_t limit = static_cast<std::size_t>(-1);
-  if (o.holdout_fraction > 0)
-    limit = static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(reader.count_frames())));
+  // --from/--to keep samples [first, end) (seconds from the first sample, at
+  // the rate known before reading); a hold-out then keeps the first
+  // (1 - fraction) of that span
+  std::size_t first = 0, limit = static_cast<std::size_t>(-1);
+  if (o.from_s > 0 || o.to_s > 0) {
+    if (!(rate0 > 0))
+      throw InputError(where(info.path) + "the rate is not known before reading; give --rate to use --from/--to");
+    first = static_cast<std::size_t>(std::llround(o.from_s * rate0));
+    if (o.to_s > 0) limit = static_cast<std::size_t>(std::llround(o.to_s * rate0));
+  }
+  if (o.holdout_fraction > 0) {
+    const std::size_t end = std::min(limit, reader.count_frames());
+    if (end > first)
+      limit = first + static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(end - first)));
+  }
   BlockPrefetcher prefetcher(reader, o.block_frames, limit, o.prefetch);
-  auto next_block = [&]() -> std::size_t { return prefetcher.next(block); };
+  std::size_t dropped = 0;  // of the `first` samples left out
+  // --from beyond the record: said as such, before "too few samples"
+  const auto check_trim = [&] {
+    if (samples == 0 && first > 0)
+      throw InputError(where(info.path) + "no samples from " + num(o.from_s) + " s" +
+                       (o.to_s > 0 ? " to " + num(o.to_s) + " s" : std::string()) + " (the record has " +
+                       std::to_string(dropped) + "); expected --from/--to within the record");
+  };
+  auto next_block = [&]() -> std::size_t {
+    for (;;) {
+      const std::size_t n = prefetcher.next(block);
+      if (n == 0 || dropped >= first) return n;
+      const std::size_t k = std::min(first - dropped, n);
+      dropped += k;
+      if (k == n) continue;
+      for (auto& ch : block) ch.erase(ch.begin(), ch.begin() + static_cast<long>(k));
+      return n - k;
+    }
+  };
   if (periodic) {
     PeriodicAccumulator acc(period, 2, o.skip_periods);
     // for harmonic distortion: the first period that is averaged
@@ -379,6 +411,7 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
       samples += block[0].size();
       acc.push(block);
     }
+    check_trim();
     if (acc.periods() == 0)
       throw InputError(where(info.path) + std::to_string(samples) + " samples, fewer than " +
                        std::to_string(o.skip_periods + 1) + " periods of " + std::to_string(period) +
@@ -407,6 +440,7 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
       samples += block[0].size();
       acc.push(block);
     }
+    check_trim();
     if (acc.segments() == 0)
       throw InputError(where(info.path) + std::to_string(samples) + " samples, fewer than one segment of " +
                        std::to_string(o.welch.segment) + "; expected a longer record, or a shorter --segment "
@@ -437,9 +471,14 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   }
   f.source = info.path;
   f.samples = samples;
+  if (o.from_s > 0 || o.to_s > 0) {
+    f.corrections.push_back("samples " + std::to_string(first) + " to " + std::to_string(first + samples) + " (" +
+                            num(static_cast<double>(first) / rate0) + " to " +
+                            num(static_cast<double>(first + samples) / rate0) + " s) kept");
+  }
   if (o.holdout_fraction > 0)
     f.warnings.push_back("the last " + num(100 * o.holdout_fraction, 3) + " % of the record was held out (samples " +
-                         std::to_string(samples) + " on), for validation with replay --split");
+                         std::to_string(first + samples) + " on), for validation with replay --split");
   f.input = info.channels[sel[0]].name;
   f.input_unit = info.channels[sel[0]].unit;
   f.output = info.channels[sel[1]].name;

@@ -63,6 +63,9 @@ struct FrfOptions {
                                 // computed (speed, not results: the same blocks in the same order)
   double holdout_fraction = 0;  // in [0, 0.9]: the last part of the record is left out (for validation
                                 // with replay --split)
+  double from_s = 0;            // >= 0: samples before this time (s from the first sample) are left out
+  double to_s = 0;              // > from_s: samples from this time on are left out; 0 = to the end.
+                                // A hold-out is then a fraction of the kept span.
 };
 void validate(const FrfOptions& o);
 
@@ -104,6 +107,8 @@ struct Frf {
   std::optional<SweepHarmonics> harmonics;  // from an exponential-sweep record
 
   std::vector<std::string> warnings;   // e.g. resolution bias at a resonance
+  std::vector<std::string> corrections;  // what was done to the measurement, one item each
+                                         // ("samples 0.5 to 10 s", "output lag 0.00125 s", ...)
 
   std::size_t size() const { return freq_hz.size(); }
   double resolution_hz() const { return segment ? rate_hz / static_cast<double>(segment) : 0; }

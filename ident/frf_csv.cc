@@ -41,6 +41,11 @@ void write_frf_csv(std::ostream& out, const Frf& f) {
   if (!f.reference.empty()) out << "# reference=" << f.reference << "\n";
   if (f.loop_gain) out << "# quantity=loop_gain\n";
   if (!f.excitation.empty()) out << "# excitation=" << f.excitation << "\n";
+  if (!f.corrections.empty()) {
+    out << "# corrections=";
+    for (std::size_t i = 0; i < f.corrections.size(); ++i) out << (i ? "; " : "") << f.corrections[i];
+    out << "\n";
+  }
   if (f.nonexcited_lines > 0) {
     out << "# nonexcited_lines=" << f.nonexcited_lines << "\n";
     std::snprintf(b, sizeof b, "# nonexcited_db=%.4g\n", f.nonexcited_db);
@@ -178,6 +183,14 @@ Frf read_frf_csv(const std::string& path) {
   f.reference = meta["reference"];
   f.loop_gain = meta["quantity"] == "loop_gain";
   f.excitation = meta["excitation"];
+  if (meta.count("corrections")) {
+    const std::string& c = meta["corrections"];
+    for (std::size_t p = 0; p <= c.size();) {
+      const std::size_t q = std::min(c.find("; ", p), c.size());
+      if (q > p) f.corrections.push_back(c.substr(p, q - p));
+      p = q + 2;
+    }
+  }
   f.nonexcited_lines = getn("nonexcited_lines");
   f.nonexcited_db = getd("nonexcited_db", nan);
   f.nonexcited_noise_db = getd("nonexcited_noise_db", nan);

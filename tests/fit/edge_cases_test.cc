@@ -135,7 +135,9 @@ TEST(FitEdge, PolesNearTheImaginaryAxis) {
   EXPECT_LT(pole_error(poles, r.result.model.poles), 1e-8);
   // damping within 1 % of 1e-4
   for (const cplx& q : r.result.model.poles)
-    if (q.imag() > 0) EXPECT_NEAR(-q.real() / std::abs(q), 1e-4, 1e-6);
+    if (q.imag() > 0) {
+      EXPECT_NEAR(-q.real() / std::abs(q), 1e-4, 1e-6);
+    }
 }
 
 TEST(FitEdge, NoiseFreeDataWithZeroStatedError) {

@@ -1,0 +1,167 @@
+// Measuring-chain corrections of `frf` (--lag, --invert, --calibrate,
+// --from/--to). The records are periodic multisines whose responses are
+// made exactly in the frequency domain (a circular response per period), so
+// a fractional-sample delay is exact too, and the periodic estimate of a
+// noise-free record is the true response to rounding: the corrections must
+// give it back to 1e-9. The plants and chains are made up for the test.
+#include <gtest/gtest.h>
+
+#include <algorithm>
+#include <cmath>
+#include <complex>
+#include <cstdio>
+#include <fstream>
+#include <functional>
+#include <string>
+#include <vector>
+
+#include "ident/frf_csv.h"
+#include "tests/support/run_cli.h"
+#include "tests/support/signals.h"
+#include "tests/support/temp_dir.h"
+
+using benchid::test::run_benchid;
+using benchid::test::slurp;
+using benchid::test::TempDir;
+using cplx = std::complex<double>;
+
+namespace {
+
+constexpr double kRate = 1000;  // Hz
+constexpr int kPeriod = 1000;   // samples: 1 Hz lines
+constexpr int kLines = 120;     // lines 1..120 Hz excited
+
+// x[n] of one period from its one-sided spectrum X[k], k = 1..kLines (plain DFT)
+std::vector<double> synthesize(const std::function<cplx(int)>& spectrum) {
+  std::vector<double> x(kPeriod, 0.0);
+  for (int k = 1; k <= kLines; ++k) {
+    const cplx X = spectrum(k);
+    for (int n = 0; n < kPeriod; ++n) x[n] += 2 * std::real(X * std::polar(1.0, 2 * M_PI * k * n / kPeriod)) / kPeriod;
+  }
+  return x;
+}
+
+cplx input_line(int k) { return std::polar(300.0, 0.7 * k * k); }  // Schroeder-like phases
+cplx plant(double f) { return 4.0 / cplx(1, f / 25) / cplx(1 - f * f / 6400, 0.1 * f / 80); }
+cplx chain(double f) { return cplx(0, f / 0.8) / cplx(1, f / 0.8) / cplx(1 - f * f / 90000, 1.2 * f / 300); }
+
+// Writes time_s,u,y of `periods` periods: u from input_line (times u_sign),
+// y = response(f) * input, delayed by delay_s (exact: periodic).
+std::string write_record(const TempDir& d, const std::string& name, const std::function<cplx(double)>& response,
+                         double delay_s, double u_sign, int periods = 4) {
+  const std::vector<double> u = synthesize(input_line);
+  const std::vector<double> y = synthesize([&](int k) {
+    return response(k) * input_line(k) * std::polar(1.0, -2 * M_PI * k * delay_s);
+  });
+  std::string s = "time_s,u,y\n";
+  char row[96];
+  for (int p = 0; p < periods; ++p)
+    for (int n = 0; n < kPeriod; ++n) {
+      std::snprintf(row, sizeof row, "%.6f,%.17g,%.17g\n", (p * kPeriod + n) / kRate, u_sign * u[n], y[n]);
+      s += row;
+    }
+  return d.write(name, s);
+}
+
+// Worst relative error of the FRF file against `truth` over its lines.
+double worst_error(const std::string& frf_path, const std::function<cplx(double)>& truth) {
+  const benchid::ident::Frf f = benchid::ident::read_frf_csv(frf_path);
+  EXPECT_EQ(f.size(), static_cast<std::size_t>(kLines));
+  double worst = 0;
+  for (std::size_t i = 0; i < f.size(); ++i)
+    worst = std::max(worst, std::abs(f.h[i] - truth(f.freq_hz[i])) / std::abs(truth(f.freq_hz[i])));
+  return worst;
+}
+
+TEST(Chain, AFractionalLagAndAPolarityFlipAreUndoneExactly) {
+  TempDir d;
+  const double lag_s = 2.37 / kRate;  // 2.37 samples
+  const std::string rec = write_record(d, "rec.csv", plant, lag_s, -1.0);
+  // uncorrected: wrong by the flip and by 2 pi f lag (85 deg at 100 Hz)
+  ASSERT_EQ(run_benchid(d, "frf " + rec + " --input u --output y --periods 4 -q -o " + d.file("raw.csv")).code, 0);
+  EXPECT_GT(worst_error(d.file("raw.csv"), plant), 1.0);
+  const auto r = run_benchid(d, "frf " + rec + " --input u --output y --periods 4 -q --lag y:" +
+                                    std::to_string(lag_s) + " --invert u -o " + d.file("h.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_LT(worst_error(d.file("h.csv"), plant), 1e-9);
+  // the same by an input lead: the input's samples early by the lag is the same relative shift
+  const auto r2 = run_benchid(d, "frf " + rec + " --input u --output y --periods 4 -q --lag u:-" +
+                                     std::to_string(lag_s) + " --invert 2 -o " + d.file("h2.csv"));
+  ASSERT_EQ(r2.code, 0) << r2.err;
+  EXPECT_LT(worst_error(d.file("h2.csv"), plant), 1e-9);
+  // what was done is in the metadata
+  const std::string text = slurp(d.file("h.csv"));
+  EXPECT_NE(text.find("# corrections=output lag 0.00237 s; input polarity inverted"), std::string::npos) << text.substr(0, 600);
+}
+
+TEST(Chain, ALoopbackCalibrationRestoresThePlant) {
+  TempDir d;
+  // the chain (AC coupling at 0.8 Hz and a 300 Hz anti-alias filter) is in
+  // the measurement; the loopback is the chain alone, measured the same way
+  const std::string meas = write_record(d, "meas.csv", [](double f) { return plant(f) * chain(f); }, 0, 1.0);
+  const std::string loop = write_record(d, "loop.csv", chain, 0, 1.0);
+  ASSERT_EQ(run_benchid(d, "frf " + loop + " --input u --output y --periods 4 -q -o " + d.file("chain.csv")).code, 0);
+  const auto r = run_benchid(d, "frf " + meas + " --input u --output y --periods 4 -q --calibrate " + d.file("chain.csv") +
+                                    " -o " + d.file("plant.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_LT(worst_error(d.file("plant.csv"), plant), 1e-9);
+  // without the calibration the chain shows (the AC coupling alone is -3 dB at 0.8 Hz)
+  ASSERT_EQ(run_benchid(d, "frf " + meas + " --input u --output y --periods 4 -q -o " + d.file("raw.csv")).code, 0);
+  EXPECT_GT(worst_error(d.file("raw.csv"), plant), 0.1);
+}
+
+TEST(Chain, TrimmingKeepsExactlyTheSamplesAsACutRecord) {
+  TempDir d;
+  // 8 periods; the FRF of seconds 2 to 6 must equal that of a file holding only them
+  const std::string rec = write_record(d, "rec.csv", plant, 0, 1.0, 8);
+  std::string cut = "time_s,u,y\n";
+  {
+    std::ifstream in(rec);
+    std::string line;
+    std::getline(in, line);
+    for (int n = 0; std::getline(in, line); ++n)
+      if (n >= 2 * kPeriod && n < 6 * kPeriod) cut += line + "\n";
+  }
+  d.write("cut.csv", cut);
+  ASSERT_EQ(run_benchid(d, "frf " + rec + " --input u --output y --segment 1000 --from 2 --to 6 -q -o " + d.file("a.csv")).code, 0);
+  ASSERT_EQ(run_benchid(d, "frf " + d.file("cut.csv") + " --input u --output y --segment 1000 -q -o " + d.file("b.csv")).code, 0);
+  const benchid::ident::Frf a = benchid::ident::read_frf_csv(d.file("a.csv")), b = benchid::ident::read_frf_csv(d.file("b.csv"));
+  ASSERT_EQ(a.size(), b.size());
+  EXPECT_EQ(a.samples, 4u * kPeriod);
+  for (std::size_t i = 0; i < a.size(); ++i) {
+    EXPECT_EQ(a.h[i], b.h[i]) << a.freq_hz[i];
+    EXPECT_EQ(a.coherence[i], b.coherence[i]) << a.freq_hz[i];
+  }
+  EXPECT_NE(slurp(d.file("a.csv")).find("samples 2000 to 6000 (2 to 6 s) kept"), std::string::npos);
+}
+
+TEST(Chain, BadCorrectionsAreRefusedNamingWhatIsWrong) {
+  TempDir d;
+  const std::string rec = write_record(d, "rec.csv", plant, 0, 1.0);
+  const std::string base = "frf " + rec + " --input u --output y --periods 4 -o " + d.file("h.csv") + " ";
+  // a calibration FRF on another grid (2 Hz lines)
+  std::string other = "time_s,u,y\n";
+  for (int n = 0; n < 2000; ++n) other += std::to_string(n / kRate) + "," + std::to_string(std::sin(n * 0.3)) + "," + std::to_string(std::cos(n * 0.3)) + "\n";
+  d.write("other.csv", other);
+  ASSERT_EQ(run_benchid(d, "frf " + d.file("other.csv") + " --input u --output y --segment 500 -q -o " + d.file("c.csv")).code, 0);
+  const struct {
+    std::string args, fragment;
+  } cases[] = {
+      {"--calibrate " + d.file("c.csv"), "lines from 2 to 500 Hz, but the measurement has 120 lines from 1 to 120 Hz"},
+      {"--lag y:5", "--lag of the output 5 s is not shorter than the record (4 s)"},
+      {"--lag time_s:0.001", "channel 'time_s' is neither the input nor the output"},
+      {"--lag y", "--lag 'y': expected CH:SECONDS"},
+      {"--invert volts", "no channel 'volts'"},
+      {"--from 9", "no samples from 9 s"},
+      {"--from 3 --to 2", "expected 0 <= from < to"},
+      {"--from 1 --split 0.2", "--split with --from/--to"},
+  };
+  for (const auto& c : cases) {
+    const auto r = run_benchid(d, base + c.args);
+    EXPECT_EQ(r.code, 2) << c.args << "\n" << r.err;
+    EXPECT_NE(r.err.find(c.fragment), std::string::npos) << c.args << "\n" << r.err;
+    EXPECT_FALSE(std::filesystem::exists(d.file("h.csv"))) << c.args;
+  }
+}
+
+}  // namespace
