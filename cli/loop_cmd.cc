@@ -31,7 +31,8 @@ namespace {
 
 struct LoopCommand {
   LoopArgs loop;
-  std::string plant, out, sweep;
+  std::vector<std::string> plants;  // one, or several for the worst case
+  std::string plant, out, sweep;    // plant: the first
   bool json = false, strict = false;
 };
 
@@ -333,37 +334,133 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
 
 namespace {
 
+bool is_frf_file(const std::string& path) {
+  std::string head;
+  std::ifstream in(path);
+  std::getline(in, head);
+  return head.rfind("# benchid frf", 0) == 0 || head.rfind("freq_hz", 0) == 0;
+}
+
+// One plant file (model JSON or FRF CSV) with the controller of `a`.
+LoopAnalysis analyse_plant_file(const LoopArgs& a, const std::string& path) {
+  if (is_frf_file(path)) {
+    const ident::Frf frf = ident::read_frf_csv(path);
+    return analyse_loop(a, path, nullptr, &frf);
+  }
+  const fit::RationalModel plant = fit::read_model_json(path);
+  double band_lo = 0, band_hi = 0;  // the band the model was fitted in, when it says
+  const nlohmann::json pj = read_json_file(path, "a model from 'benchid fit'");
+  if (pj.contains("fit") && pj["fit"].contains("band_hz") && pj["fit"]["band_hz"].is_array() &&
+      pj["fit"]["band_hz"].size() == 2 && pj["fit"]["band_hz"][0].is_number() && pj["fit"]["band_hz"][1].is_number()) {
+    band_lo = pj["fit"]["band_hz"][0].get<double>();
+    band_hi = pj["fit"]["band_hz"][1].get<double>();
+  }
+  return analyse_loop(a, path, &plant, nullptr, band_lo, band_hi);
+}
+
+// The gain margin as the table shows it: negative when the gain must fall.
+double signed_gain_margin(const loop::Margins& m) {
+  return std::isinf(m.gain_margin_db) && std::isfinite(m.lower_gain_margin_db) ? -m.lower_gain_margin_db
+                                                                                : m.gain_margin_db;
+}
+
+// Several plants (positions, loads, temperatures) with one controller: each
+// plant's figures and the worst of each, with the plant it came from. A
+// margin that is unknown for a plant (its crossover above the measured band)
+// makes that worst figure unknown. The verdict passes when every plant passes.
+void run_worst_case(const LoopCommand& cmd, const LoopArgs& a) {
+  std::vector<LoopAnalysis> all;
+  for (const auto& p : cmd.plants) all.push_back(analyse_plant_file(a, p));
+  struct Worst {
+    double value;
+    std::size_t plant = 0;
+    bool unknown = false;
+  };
+  const double inf = std::numeric_limits<double>::infinity();
+  Worst gm{inf}, pm{inf}, dm{inf}, ms{-inf};
+  bool pass = true, stable = true, judged = true;
+  for (std::size_t i = 0; i < all.size(); ++i) {
+    const LoopAnalysis& r = all[i];
+    const loop::Margins& m = r.m;
+    pass = pass && r.pass;
+    judged = judged && r.st.judged;
+    stable = stable && (!r.st.judged || r.st.stable);
+    const bool unknown = r.crossover_above_band;
+    const auto take_min = [&](Worst& w, double v, bool unk) {
+      if (w.unknown) return;
+      if (unk) w = {v, i, true};
+      else if (v < w.value) w = {v, i, false};
+    };
+    take_min(gm, signed_gain_margin(m), unknown && std::isinf(m.gain_margin_db));
+    take_min(pm, m.phase_margin_deg, unknown && std::isinf(m.phase_margin_deg));
+    take_min(dm, m.delay_margin_s, unknown && std::isinf(m.phase_margin_deg));
+    if (20 * std::log10(m.ms) > ms.value) ms = {20 * std::log10(m.ms), i, false};
+  }
+  const auto name = [&](const Worst& w) { return all[w.plant].plant_name; };
+  const auto shown = [&](const Worst& w, const char* f, double scale, const char* unit) {
+    if (w.unknown) return std::string("unknown (") + name(w) + ": crossover above its measured band)";
+    if (std::isinf(w.value)) return std::string("infinite (every plant)");
+    return fmt(f, w.value * scale) + unit + " (" + name(w) + ")";
+  };
+  std::ostringstream t;
+  t << "benchid loop: worst case over " << all.size() << " plants, controller " << a.controller << "\n";
+  t << "  plant                              GM dB    PM deg   delay ms    Ms dB  crossover Hz  stable     verdict\n";
+  for (const LoopAnalysis& r : all) {
+    const loop::Margins& m = r.m;
+    const std::string stab = r.st.judged ? (r.st.stable ? "yes" : "NO") : "not judged";
+    char row[320];
+    std::snprintf(row, sizeof row, "  %-32s %8.4g  %8.4g  %9.4g  %7.3g  %12.5g  %-10s %s\n", r.plant_name.c_str(),
+                  signed_gain_margin(m), m.phase_margin_deg, m.delay_margin_s * 1e3, 20 * std::log10(m.ms),
+                  m.crossover_hz, stab.c_str(), r.pass ? "pass" : "FAIL");
+    t << row;
+  }
+  t << "  worst gain margin   " << shown(gm, "%.4g", 1, " dB") << "\n";
+  t << "  worst phase margin  " << shown(pm, "%.4g", 1, " deg") << "\n";
+  t << "  worst delay margin  " << shown(dm, "%.4g", 1e3, " ms") << "\n";
+  t << "  worst Ms            " << shown(ms, "%.3g", 1, " dB") << "\n";
+  t << "  closed loop: " << (!stable ? "UNSTABLE for at least one plant" : judged ? "stable for every plant" : "stable where judged; not judged for every plant") << "\n";
+  t << "  verdict: " << (pass ? "pass" : "FAIL") << " (every plant must pass on its own: phase and gain margin as common practice, Ms as in Astrom & Murray)\n";
+  t << "  CAUTION: " << kLoopCaution << "\n";
+  nlohmann::json j;
+  j["format"] = "benchid.loop/1";
+  j["controller"] = a.controller;
+  const auto wj = [&](const Worst& w) {
+    nlohmann::json o;
+    o["value"] = w.unknown ? nlohmann::json(nullptr) : num_or_null(w.value);
+    o["plant"] = name(w);
+    o["unknown"] = w.unknown;
+    return o;
+  };
+  j["worst_case"] = {{"gain_margin_db", wj(gm)}, {"phase_margin_deg", wj(pm)}, {"delay_margin_s", wj(dm)},
+                     {"peak_sensitivity_db", wj(ms)}, {"stable", stable}, {"pass", pass}};
+  j["plants"] = nlohmann::json::array();
+  for (const LoopAnalysis& r : all) j["plants"].push_back(r.json);
+  const std::string js = j.dump(2) + "\n";
+  if (cmd.json) {
+    std::cerr << t.str();
+    std::cout << js;
+  } else {
+    std::cout << t.str();
+  }
+  if (!cmd.out.empty()) write_file_atomically(cmd.out, js);
+  if (cmd.strict && !pass) std::exit(3);
+}
+
 void run_loop(const LoopCommand& cmd) {
   LoopArgs a = cmd.loop;
   if (!a.controller.empty()) a.controller = controller_spec(a.controller);
-  check_output(cmd.out, OutputKind::loop_json, {cmd.plant});
+  check_output(cmd.out, OutputKind::loop_json, cmd.plants);
   if (a.controller.empty()) throw InputError("no controller; expected --controller SPEC (e.g. pid:kp=1,ki=10)");
-  bool frf_plant = false;
-  {
-    std::string head;
-    std::ifstream in(cmd.plant);
-    std::getline(in, head);
-    frf_plant = head.rfind("# benchid frf", 0) == 0 || head.rfind("freq_hz", 0) == 0;
-  }
-  if (!cmd.sweep.empty()) {
-    run_sweep(cmd, a.controller, frf_plant);
+  if (cmd.plants.size() > 1) {
+    if (!cmd.sweep.empty()) throw InputError("--sweep takes one plant; expected one plant file with --sweep");
+    run_worst_case(cmd, a);
     return;
   }
-  LoopAnalysis r;
-  if (frf_plant) {
-    const ident::Frf frf = ident::read_frf_csv(cmd.plant);
-    r = analyse_loop(a, cmd.plant, nullptr, &frf);
-  } else {
-    const fit::RationalModel plant = fit::read_model_json(cmd.plant);
-    double band_lo = 0, band_hi = 0;  // the band the model was fitted in, when it says
-    const nlohmann::json pj = read_json_file(cmd.plant, "a model from 'benchid fit'");
-    if (pj.contains("fit") && pj["fit"].contains("band_hz") && pj["fit"]["band_hz"].is_array() &&
-        pj["fit"]["band_hz"].size() == 2 && pj["fit"]["band_hz"][0].is_number() && pj["fit"]["band_hz"][1].is_number()) {
-      band_lo = pj["fit"]["band_hz"][0].get<double>();
-      band_hi = pj["fit"]["band_hz"][1].get<double>();
-    }
-    r = analyse_loop(a, cmd.plant, &plant, nullptr, band_lo, band_hi);
+  if (!cmd.sweep.empty()) {
+    run_sweep(cmd, a.controller, is_frf_file(cmd.plant));
+    return;
   }
+  const LoopAnalysis r = analyse_plant_file(a, cmd.plant);
   const std::string js = r.json.dump(2) + "\n";
   if (cmd.json) {
     std::cerr << r.text;
@@ -400,8 +497,9 @@ void add_loop_command(CLI::App& app) {
   CLI::App* c = app.add_subcommand(
       "loop", "Loop gain L = C P of a model plant and a controller: every gain and phase crossover (root-refined), "
               "gain, phase and delay margins, Ms, Mt, closed-loop bandwidth and stability, and a verdict.");
-  c->add_option("plant", a->plant, "Plant: a model JSON from 'benchid fit', or an FRF CSV from 'benchid frf' (model-free "
-                "margins within the measured band, with their uncertainty)")->required();
+  c->add_option("plant", a->plants, "Plant: a model JSON from 'benchid fit', or an FRF CSV from 'benchid frf' (model-free "
+                "margins within the measured band, with their uncertainty). Several plants (positions, loads, "
+                "temperatures): the figures of each and the worst of each, with the plant it came from")->required();
   add_loop_options(c, a->loop, false);
   c->add_option("--sweep", a->sweep, "NAME=LO:HI:N: recompute the figures for N values of one controller parameter "
                 "(e.g. kp=0.5:2:10, linear steps) and print a table (default: none)");
@@ -409,7 +507,10 @@ void add_loop_command(CLI::App& app) {
   add_force_flag(c);
   c->add_flag("--json", a->json, "Print only the loop JSON on stdout (the table goes to stderr)");
   c->add_flag("--strict", a->strict, "Exit status 3 when the verdict fails");
-  c->callback([a] { run_loop(*a); });
+  c->callback([a] {
+    a->plant = a->plants.front();
+    run_loop(*a);
+  });
 }
 
 }  // namespace benchid::cli

@@ -1,7 +1,10 @@
 // `benchid loop` as a user runs it: table, JSON, verdict and refusals.
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
+#include <string>
+#include <vector>
 #include <nlohmann/json.hpp>
 
 #include "fit/model.h"
@@ -153,6 +156,52 @@ TEST(LoopCli, RefusesWhatItCannotAnalyse) {
   r = run(d, "loop " + d.file("frf.csv") + " --controller gain:k=1");
   EXPECT_EQ(r.code, 2);
   EXPECT_NE(r.err.find("expected at least 4 for loop figures"), std::string::npos) << r.err;
+}
+
+// Worst case over plants (issue 9): the same controller on k/(s(s+1)(s+2))
+// with k = 1, 2 and 4 (a load that raises the gain). Each worst figure must
+// equal the minimum (Ms: the maximum) over single-plant runs, naming its
+// plant; the smallest gain margin is the largest k's, since the phase
+// crossing does not move with k and |L| there grows with it.
+TEST(LoopCli, WorstCaseOverPlantsIsTheWorstOfTheSingleRuns) {
+  TempDir d;
+  std::vector<std::string> plants;
+  for (double k : {1.0, 4.0, 2.0}) {
+    const auto m = benchid::fit::from_zpk(benchid::fit::Zpk{{}, {0.0, -1.0, -2.0}, k});
+    plants.push_back(d.write("k" + std::to_string(static_cast<int>(k)) + ".json", benchid::fit::model_json(m)));
+  }
+  double gm_min = 1e300, pm_min = 1e300, dm_min = 1e300, ms_max = -1e300;
+  std::string gm_plant, ms_plant;
+  for (const auto& p : plants) {
+    const Outcome r = run(d, "loop " + p + " --controller pid:kp=0.5,ki=0.05 --json");
+    ASSERT_EQ(r.code, 0) << r.err;
+    const auto j = nlohmann::json::parse(r.out);
+    if (j["gain_margin_db"].get<double>() < gm_min) gm_min = j["gain_margin_db"].get<double>(), gm_plant = p;
+    pm_min = std::min(pm_min, j["phase_margin_deg"].get<double>());
+    dm_min = std::min(dm_min, j["delay_margin_s"].get<double>());
+    if (j["peak_sensitivity_db"].get<double>() > ms_max) ms_max = j["peak_sensitivity_db"].get<double>(), ms_plant = p;
+  }
+  const Outcome r = run(d, "loop " + plants[0] + " " + plants[1] + " " + plants[2] +
+                               " --controller pid:kp=0.5,ki=0.05 --strict -o " + d.file("wc.json"));
+  const auto j = nlohmann::json::parse(benchid::test::slurp(d.file("wc.json")));
+  const auto& w = j["worst_case"];
+  EXPECT_EQ(w["gain_margin_db"]["value"].get<double>(), gm_min);
+  EXPECT_EQ(w["gain_margin_db"]["plant"], gm_plant);
+  EXPECT_EQ(gm_plant, plants[1]);  // k = 4
+  EXPECT_EQ(w["phase_margin_deg"]["value"].get<double>(), pm_min);
+  EXPECT_EQ(w["delay_margin_s"]["value"].get<double>(), dm_min);
+  EXPECT_EQ(w["peak_sensitivity_db"]["value"].get<double>(), ms_max);
+  EXPECT_EQ(w["peak_sensitivity_db"]["plant"], ms_plant);
+  EXPECT_EQ(j["plants"].size(), 3u);
+  EXPECT_NE(r.out.find("worst gain margin   " ), std::string::npos) << r.out;
+  EXPECT_NE(r.out.find("(" + plants[1] + ")"), std::string::npos) << r.out;
+  // the verdict passes only when every plant passes: k = 4 fails GM >= 10 dB
+  EXPECT_EQ(w["pass"], false);
+  EXPECT_EQ(r.code, 3);  // --strict
+  // with --sweep, one plant only
+  const Outcome sw = run(d, "loop " + plants[0] + " " + plants[1] + " --controller gain:k=1 --sweep k=0.5:2:3");
+  EXPECT_EQ(sw.code, 2);
+  EXPECT_NE(sw.err.find("--sweep takes one plant"), std::string::npos) << sw.err;
 }
 
 }  // namespace
