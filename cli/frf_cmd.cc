@@ -2,6 +2,7 @@
 #include <cmath>
 #include <iostream>
 #include <limits>
+#include <memory>
 #include <optional>
 #include <sstream>
 #include <unistd.h>
@@ -35,6 +36,7 @@ struct FrfCommand {
 
 std::vector<std::string> frf_inputs(const FrfArgs& a) {
   std::vector<std::string> v{a.record};
+  v.insert(v.end(), a.more_records.begin(), a.more_records.end());
   if (!a.excitation.empty()) v.push_back(a.excitation);
   if (!a.stepped.empty()) v.push_back(a.stepped);
   if (!a.calibrate.empty()) v.push_back(a.calibrate);
@@ -62,11 +64,16 @@ ident::Frf compute_frf(const FrfArgs& a) {
   if (!(a.jitter > 0 && a.jitter < 0.5))
     throw InputError("--jitter-tolerance " + fmt_num(a.jitter) + ": expected a fraction in (0, 0.5)");
   auto reader = ident::open_record(a.record, ro);
+  // further runs of the same measurement, averaged in
+  std::vector<std::unique_ptr<ident::RecordReader>> more;
+  for (const auto& r : a.more_records) more.push_back(ident::open_record(r, ro));
   for (const auto& s : a.scales) {
     const auto c = s.rfind(':');
     if (c == std::string::npos || c == 0)
       throw InputError("--scale '" + s + "': expected CH:FACTOR, e.g. 2:10.5");
-    reader->set_scale(reader->channel_index(s.substr(0, c)), parse_number(s.substr(c + 1), "--scale factor"));
+    const double factor = parse_number(s.substr(c + 1), "--scale factor");
+    reader->set_scale(reader->channel_index(s.substr(0, c)), factor);
+    for (auto& m : more) m->set_scale(m->channel_index(s.substr(0, c)), factor);
   }
   // chain corrections name the input or the output channel
   ident::ChainCorrection chain;
@@ -119,6 +126,8 @@ ident::Frf compute_frf(const FrfArgs& a) {
   ident::Frf f;
   if (stepped) {
     if (!a.reference.empty()) throw InputError("a stepped-sine FRF takes no --reference");
+    if (!more.empty()) throw InputError("several records: averaging is for Welch and periodic estimates; expected one "
+                                        "record with a stepped-sine plan");
     if (a.from_s > 0 || a.to_s > 0)
       throw InputError("--from/--to do not apply to a stepped sine (the plan places each step); expected --plan-offset");
     ident::SteppedOptions so;
@@ -154,7 +163,9 @@ ident::Frf compute_frf(const FrfArgs& a) {
     } else if (a.skip_periods > 0) {
       o.skip_periods = static_cast<std::size_t>(a.skip_periods);
     }
-    f = ident::estimate_frf(*reader, {a.input, a.output, a.reference}, o);
+    std::vector<ident::RecordReader*> readers{reader.get()};
+    for (auto& m : more) readers.push_back(m.get());
+    f = ident::estimate_frf(readers, {a.input, a.output, a.reference}, o);
   }
   if (side) {
     if (std::fabs(f.rate_hz - side->excitation.rate_hz) > 1e-6 * side->excitation.rate_hz)
@@ -193,8 +204,14 @@ void run_frf(const FrfCommand& cmd) {
 }  // namespace
 
 void add_frf_options(CLI::App* c, FrfArgs& a, bool pipeline) {
-  c->add_option("record", a.record, "Recording: CSV/TSV log (header row of channel names, optional time "
-                "column) or a sound file (WAV, FLAC, AIFF, ... through libsndfile)")->required();
+  if (pipeline)
+    c->add_option("record", a.record, "Recording: CSV/TSV log (header row of channel names, optional time "
+                  "column) or a sound file (WAV, FLAC, AIFF, ... through libsndfile)")->required();
+  else
+    c->add_option("record", a.records, "Recording: CSV/TSV log (header row of channel names, optional time column) "
+                  "or a sound file (WAV, FLAC, AIFF, ... through libsndfile). Several records of the same run repeated "
+                  "(same rate, channels, excitation) are averaged into one FRF with the error from all of them")
+        ->required();
   c->add_option("--input", a.input, "Input (excitation) channel: header name or 1-based column/channel "
                 "number (numbers count every column, the time column included)")->required();
   c->add_option("--output", a.output, "Output (response) channel: name or 1-based number")->required();
@@ -272,7 +289,11 @@ void add_frf_command(CLI::App& app, const std::string& command_line) {
   c->add_option("--report", cmd->report, "Also write a plain-text report (settings, quality, selected lines with "
                 "error bars, warnings, caution) to this file (default: none)");
   c->add_flag("-q,--quiet", cmd->quiet, "No summary on stderr");
-  c->callback([cmd] { run_frf(*cmd); });
+  c->callback([cmd] {
+    cmd->frf.record = cmd->frf.records.front();
+    cmd->frf.more_records.assign(cmd->frf.records.begin() + 1, cmd->frf.records.end());
+    run_frf(*cmd);
+  });
 }
 
 }  // namespace benchid::cli

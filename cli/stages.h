@@ -35,6 +35,8 @@ struct NoResult : std::runtime_error {
 // ---- frf -------------------------------------------------------------------
 struct FrfArgs {
   std::string record, input, output, reference;
+  std::vector<std::string> records;       // `frf` positional: the record and any repeats
+  std::vector<std::string> more_records;  // repeats of the same run after `record`, averaged in
   std::string command_line;
   double rate_hz = 0;
   std::size_t segment = 0;

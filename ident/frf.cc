@@ -3,7 +3,9 @@
 #include <algorithm>
 #include <cstdint>
 #include <cmath>
+#include <functional>
 #include <limits>
+#include <memory>
 #include <numbers>
 #include <sstream>
 
@@ -321,9 +323,15 @@ Frf frf_from_periodic(const PeriodicSpectra& ps, std::size_t u, std::size_t y, c
   return f;
 }
 
-Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& o_in) {
+Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& o) {
+  return estimate_frf(std::vector<RecordReader*>{&reader}, ch, o);
+}
+
+Frf estimate_frf(const std::vector<RecordReader*>& readers, const FrfChannels& ch, const FrfOptions& o_in) {
+  if (readers.empty()) throw InputError("no record; expected at least one");
   FrfOptions o = o_in;
   validate(o);
+  RecordReader& reader = *readers.front();
   const RecordInfo& info = reader.info();
   std::vector<std::size_t> sel{reader.channel_index(ch.input), reader.channel_index(ch.output)};
   const bool have_ref = !ch.reference.empty();
@@ -337,6 +345,12 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   if (o.loop_gain && !have_ref)
     throw InputError("loop gain from an injection needs the injected signal as --reference");
   reader.select(sel);
+  // further records of the same run, averaged in: the same channels by name
+  for (std::size_t r = 1; r < readers.size(); ++r) {
+    std::vector<std::size_t> s2{readers[r]->channel_index(ch.input), readers[r]->channel_index(ch.output)};
+    if (have_ref) s2.push_back(readers[r]->channel_index(ch.reference));
+    readers[r]->select(s2);
+  }
   const bool periodic = o.period > 0 || o.periods > 0;
   if (periodic && have_ref)
     throw InputError("periodic averaging with a reference channel is not supported; "
@@ -350,6 +364,11 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
     if (period < 2)
       throw InputError(where(info.path) + std::to_string(total) + " samples cannot hold " +
                        std::to_string(o.periods) + " periods; expected at least 2 samples per period");
+    for (std::size_t r = 1; r < readers.size(); ++r)
+      if (readers[r]->count_frames() / o.periods != period)
+        throw InputError(where(readers[r]->info().path) + std::to_string(readers[r]->count_frames()) + " samples give " +
+                         std::to_string(readers[r]->count_frames() / o.periods) + "-sample periods, but " + info.path +
+                         " gives " + std::to_string(period) + "; expected runs with the same excitation and length");
   }
   if (!periodic && o.resolution_hz > 0) {
     if (!(rate0 > 0))
@@ -362,43 +381,65 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   std::vector<std::vector<double>> block;
   Frf f;
   std::size_t samples = 0;
-  // --from/--to keep samples [first, end) (seconds from the first sample, at
-  // the rate known before reading); a hold-out then keeps the first
-  // (1 - fraction) of that span
-  std::size_t first = 0, limit = static_cast<std::size_t>(-1);
-  if (o.from_s > 0 || o.to_s > 0) {
-    if (!(rate0 > 0))
-      throw InputError(where(info.path) + "the rate is not known before reading; give --rate to use --from/--to");
-    first = static_cast<std::size_t>(std::llround(o.from_s * rate0));
-    if (o.to_s > 0) limit = static_cast<std::size_t>(std::llround(o.to_s * rate0));
-  }
-  if (o.holdout_fraction > 0) {
-    const std::size_t end = std::min(limit, reader.count_frames());
-    if (end > first)
-      limit = first + static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(end - first)));
-  }
-  BlockPrefetcher prefetcher(reader, o.block_frames, limit, o.prefetch);
-  std::size_t dropped = 0;  // of the `first` samples left out
-  // --from beyond the record: said as such, before "too few samples"
+  // --from/--to keep samples [first, end) of each record (seconds from its
+  // first sample, at the rate known before reading); a hold-out then keeps
+  // the first (1 - fraction) of that span. Several records are read one
+  // after the other; record_end() tells the accumulator where one ends.
+  std::size_t first = 0, limit = 0, dropped = 0, kept = 0, rec = 0;
+  std::unique_ptr<BlockPrefetcher> prefetcher;
+  std::function<void()> record_end = [] {};
+  const auto open_next = [&] {
+    RecordReader& rd = *readers[rec];
+    const double r0 = rd.rate_hz();
+    first = 0, limit = static_cast<std::size_t>(-1), dropped = 0, kept = 0;
+    if (o.from_s > 0 || o.to_s > 0) {
+      if (!(r0 > 0))
+        throw InputError(where(rd.info().path) + "the rate is not known before reading; give --rate to use --from/--to");
+      first = static_cast<std::size_t>(std::llround(o.from_s * r0));
+      if (o.to_s > 0) limit = static_cast<std::size_t>(std::llround(o.to_s * r0));
+    }
+    if (o.holdout_fraction > 0) {
+      const std::size_t end = std::min(limit, rd.count_frames());
+      if (end > first)
+        limit = first + static_cast<std::size_t>(std::floor((1 - o.holdout_fraction) * static_cast<double>(end - first)));
+    }
+    prefetcher = std::make_unique<BlockPrefetcher>(rd, o.block_frames, limit, o.prefetch);
+  };
+  open_next();
+  // --from beyond a record: said as such, before "too few samples"
   const auto check_trim = [&] {
-    if (samples == 0 && first > 0)
-      throw InputError(where(info.path) + "no samples from " + num(o.from_s) + " s" +
+    if (kept == 0 && first > 0)
+      throw InputError(where(readers[rec]->info().path) + "no samples from " + num(o.from_s) + " s" +
                        (o.to_s > 0 ? " to " + num(o.to_s) + " s" : std::string()) + " (the record has " +
                        std::to_string(dropped) + "); expected --from/--to within the record");
   };
   auto next_block = [&]() -> std::size_t {
     for (;;) {
-      const std::size_t n = prefetcher.next(block);
-      if (n == 0 || dropped >= first) return n;
+      const std::size_t n = prefetcher->next(block);
+      if (n == 0) {
+        check_trim();
+        if (rec + 1 == readers.size()) return 0;
+        record_end();
+        prefetcher.reset();
+        ++rec;
+        open_next();
+        continue;
+      }
+      if (dropped >= first) {
+        kept += n;
+        return n;
+      }
       const std::size_t k = std::min(first - dropped, n);
       dropped += k;
       if (k == n) continue;
-      for (auto& ch : block) ch.erase(ch.begin(), ch.begin() + static_cast<long>(k));
+      for (auto& c : block) c.erase(c.begin(), c.begin() + static_cast<long>(k));
+      kept += n - k;
       return n - k;
     }
   };
   if (periodic) {
     PeriodicAccumulator acc(period, 2, o.skip_periods);
+    record_end = [&] { acc.end_record(); };
     // for harmonic distortion: the first period that is averaged
     std::vector<double> hu, hy;
     const std::size_t h_from = o.skip_periods * period, h_to = h_from + period;
@@ -411,7 +452,6 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
       samples += block[0].size();
       acc.push(block);
     }
-    check_trim();
     if (acc.periods() == 0)
       throw InputError(where(info.path) + std::to_string(samples) + " samples, fewer than " +
                        std::to_string(o.skip_periods + 1) + " periods of " + std::to_string(period) +
@@ -436,11 +476,11 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
       f.warnings.push_back(std::to_string(samples % period) + " trailing samples (less than one period) left out");
   } else {
     WelchAccumulator acc(o.welch, sel.size());
+    record_end = [&] { acc.end_record(); };
     while (next_block() > 0) {
       samples += block[0].size();
       acc.push(block);
     }
-    check_trim();
     if (acc.segments() == 0)
       throw InputError(where(info.path) + std::to_string(samples) + " samples, fewer than one segment of " +
                        std::to_string(o.welch.segment) + "; expected a longer record, or a shorter --segment "
@@ -471,10 +511,26 @@ Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& 
   }
   f.source = info.path;
   f.samples = samples;
-  if (o.from_s > 0 || o.to_s > 0) {
+  if (readers.size() > 1) {
+    // runs with the same settings: the same rate (to a part per million)
+    const double rate = reader.rate_hz();
+    std::string names = info.path;
+    for (std::size_t r = 1; r < readers.size(); ++r) {
+      const double rr = readers[r]->rate_hz();
+      if (!(std::fabs(rr - rate) <= 1e-6 * rate))
+        throw InputError(where(readers[r]->info().path) + "sampled at " + num(rr, 8) + " Hz, but " + info.path + " at " +
+                         num(rate, 8) + " Hz; expected runs with the same settings");
+      names += ", " + readers[r]->info().path;
+    }
+    f.corrections.push_back("averaged over " + std::to_string(readers.size()) + " records: " + names);
+  }
+  if ((o.from_s > 0 || o.to_s > 0) && readers.size() == 1) {
     f.corrections.push_back("samples " + std::to_string(first) + " to " + std::to_string(first + samples) + " (" +
                             num(static_cast<double>(first) / rate0) + " to " +
                             num(static_cast<double>(first + samples) / rate0) + " s) kept");
+  } else if (o.from_s > 0 || o.to_s > 0) {
+    f.corrections.push_back("samples from " + num(o.from_s) + " s" + (o.to_s > 0 ? " to " + num(o.to_s) + " s" : std::string()) +
+                            " of each record kept");
   }
   if (o.holdout_fraction > 0)
     f.warnings.push_back("the last " + num(100 * o.holdout_fraction, 3) + " % of the record was held out (samples " +

@@ -137,6 +137,11 @@ struct FrfChannels {
   std::string input, output, reference;  // names or 1-based numbers; reference may be empty
 };
 Frf estimate_frf(RecordReader& reader, const FrfChannels& ch, const FrfOptions& o);
+// Several records of the same run repeated (same rate, channels and
+// excitation), averaged into one estimate: no segment or period spans two
+// records, each record is trimmed (from_s/to_s) and skips its transient
+// periods on its own, and the random error comes from all of them.
+Frf estimate_frf(const std::vector<RecordReader*>& readers, const FrfChannels& ch, const FrfOptions& o);
 
 // Short human summary (a few lines, no trailing newline).
 std::string summary(const Frf& f);

@@ -108,6 +108,12 @@ void WelchAccumulator::push(const std::vector<std::vector<double>>& block) {
     for (auto& p : pending_) p.erase(p.begin(), p.begin() + static_cast<std::ptrdiff_t>(std::min(offset, p.size())));
 }
 
+void WelchAccumulator::end_record() {
+  for (auto& p : pending_) p.clear();
+  record_segments_.push_back(segments_ - segments_at_record_start_);
+  segments_at_record_start_ = segments_;
+}
+
 void WelchAccumulator::process_segment(std::size_t offset) {
   const std::size_t n = opts_.segment;
   const double nd = static_cast<double>(n);
@@ -155,7 +161,10 @@ CrossSpectra WelchAccumulator::finish(double rate_hz) const {
   cs.hop = hop_;
   cs.segments = segments_;
   cs.rate_hz = rate_hz;
-  cs.effective_averages = effective_averages(window_, hop_, segments_);
+  // n_eff per record (overlap correlates segments within one record only), summed
+  cs.effective_averages = 0;
+  for (std::size_t k : record_segments_) cs.effective_averages += effective_averages(window_, hop_, k);
+  cs.effective_averages += effective_averages(window_, hop_, segments_ - segments_at_record_start_);
   const WindowFigures wf = window_figures(window_);
   const std::size_t bins = cs.bins();
   cs.pairs = sums_;
@@ -186,7 +195,7 @@ struct PeriodicAccumulator::Fft {
 };
 
 PeriodicAccumulator::PeriodicAccumulator(std::size_t period, std::size_t channels, std::size_t skip)
-    : period_(period), channels_(channels), skip_(skip) {
+    : period_(period), channels_(channels), skip_(skip), skip_each_(skip) {
   if (period < 2) throw InputError("period = " + std::to_string(period) + ": must be at least 2 samples");
   pending_.resize(channels);
   const std::size_t bins = period / 2 + 1;
@@ -196,6 +205,11 @@ PeriodicAccumulator::PeriodicAccumulator(std::size_t period, std::size_t channel
 }
 
 PeriodicAccumulator::~PeriodicAccumulator() = default;
+
+void PeriodicAccumulator::end_record() {
+  for (auto& p : pending_) p.clear();
+  skip_ = skip_each_;
+}
 
 void PeriodicAccumulator::push(const std::vector<std::vector<double>>& block) {
   if (channels_ == 0 || block.size() != channels_) return;

@@ -61,6 +61,10 @@ class WelchAccumulator {
 
   // block[c][n], all channels of equal length (any length, including 0).
   void push(const std::vector<std::vector<double>>& block);
+  // The end of one record of several averaged together: the samples short of
+  // a segment are dropped (no segment spans two records), and the effective
+  // number of averages counts the overlap correlation within each record only.
+  void end_record();
   std::size_t samples() const { return samples_; }
   std::size_t segments() const { return segments_; }
   // Scaled averages; rate_hz > 0.
@@ -76,6 +80,8 @@ class WelchAccumulator {
   std::vector<std::vector<std::complex<double>>> sums_;
   std::unique_ptr<Fft> fft_;
   std::size_t samples_ = 0, segments_ = 0;
+  std::vector<std::size_t> record_segments_;  // segments of each ended record
+  std::size_t segments_at_record_start_ = 0;
 };
 
 // Synchronous averaging of whole periods of a periodic excitation
@@ -104,6 +110,9 @@ class PeriodicAccumulator {
   PeriodicAccumulator(const PeriodicAccumulator&) = delete;
   PeriodicAccumulator& operator=(const PeriodicAccumulator&) = delete;
   void push(const std::vector<std::vector<double>>& block);
+  // The end of one record of several: a part period is dropped and the next
+  // record skips its own `skip` leading periods.
+  void end_record();
   std::size_t periods() const { return periods_; }
   PeriodicSpectra finish(double rate_hz) const;
 
@@ -114,7 +123,7 @@ class PeriodicAccumulator {
   std::vector<std::vector<std::complex<double>>> sum_, sum_prod_;
   std::unique_ptr<Fft> fft_;
   std::size_t periods_ = 0;
-  std::size_t skip_ = 0;
+  std::size_t skip_ = 0, skip_each_ = 0;
 };
 
 }  // namespace benchid::ident
