@@ -240,4 +240,28 @@ TEST(Runs, PeriodicRunsAverageTheirPeriodsAndKeepTheResponse) {
   EXPECT_NE(bad.err.find("c.csv: 5000 samples give 1250-sample periods"), std::string::npos) << bad.err;
 }
 
+// `benchid stitch` as a user runs it: a periodic FRF (1..120 Hz, noise-free
+// periods, so a random error of 0) joined with a Welch FRF of a noisy record
+// reaching 500 Hz; the file says which source gave which band and where the
+// seams are (the choice itself is tested in tests/ident/stitch_test.cc).
+TEST(StitchCli, JoinsTwoMeasurementsAndRecordsTheSeam) {
+  TempDir d;
+  const std::string rec = write_record(d, "rec.csv", plant, 0, 1.0, 8);
+  ASSERT_EQ(run_benchid(d, "frf " + rec + " --input u --output y --periods 8 -q -o " + d.file("periodic.csv")).code, 0);
+  ASSERT_EQ(run_benchid(d, "frf " + noisy_run(d, "noise.csv", 5) + " --input u --output y --segment 256 -q -o " +
+                               d.file("welch.csv")).code, 0);
+  const auto r = run_benchid(d, "stitch " + d.file("periodic.csv") + " " + d.file("welch.csv") + " -o " + d.file("s.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  const benchid::ident::Frf s = benchid::ident::read_frf_csv(d.file("s.csv"));
+  EXPECT_EQ(s.freq_hz.back(), 500);
+  const std::string text = slurp(d.file("s.csv"));
+  EXPECT_NE(text.find("stitched from " + d.file("periodic.csv") + " ("), std::string::npos) << text.substr(0, 800);
+  EXPECT_NE(text.find("seams at"), std::string::npos);
+  EXPECT_NE(r.err.find("seam at"), std::string::npos) << r.err;
+  // one FRF is not a stitch
+  const auto one = run_benchid(d, "stitch " + d.file("welch.csv") + " -o " + d.file("t.csv"));
+  EXPECT_EQ(one.code, 2);
+  EXPECT_FALSE(std::filesystem::exists(d.file("t.csv")));
+}
+
 }  // namespace
