@@ -17,5 +17,6 @@ void add_report_command(CLI::App& app, const std::string& command_line);
 void add_demo_command(CLI::App& app);
 void add_batch_command(CLI::App& app);
 void add_stitch_command(CLI::App& app);
+void add_compare_command(CLI::App& app);
 
 }  // namespace benchid::cli

@@ -51,6 +51,7 @@ const char* kind_name(OutputKind k) {
     case OutputKind::sidecar: return "excitation sidecar or plan";
     case OutputKind::html_report: return "HTML report";
     case OutputKind::batch_results: return "batch results file";
+    case OutputKind::compare_csv: return "comparison CSV";
   }
   return "output";
 }
@@ -86,6 +87,7 @@ bool is_our_output(const std::string& path, OutputKind kind) {
     case OutputKind::html_report:
       return starts_with(head, "<!DOCTYPE html>") && head.find("<title>benchid report:") != std::string::npos;
     case OutputKind::batch_results: return starts_with(head, "{\"unit\":");
+    case OutputKind::compare_csv: return starts_with(head, "# benchid compare");
   }
   return false;
 }

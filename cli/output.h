@@ -28,6 +28,7 @@ enum class OutputKind {
   sidecar,        // {"format": "benchid.excitation/1"} (excite --sidecar/--plan)
   html_report,    // <title>benchid report: (report -o)
   batch_results,  // JSON lines starting {"unit": (batch -o)
+  compare_csv,    // "# benchid compare" (compare -o)
 };
 // The overwrite rule for every output file: an output may replace an
 // existing file only when that file is empty or is benchid's own earlier
