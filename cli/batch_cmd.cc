@@ -33,7 +33,9 @@
 #include "cli/report.h"
 #include "cli/stages.h"
 #include "fit/model.h"
+#include "ident/compare.h"
 #include "ident/error.h"
+#include "ident/frf_csv.h"
 #include "ident/json_file.h"
 #include "loop/controller.h"
 
@@ -121,6 +123,31 @@ ojson analyse(const Unit& u, ojson& line, bool& pass, std::size_t read_threads) 
   if (lim("resonance_hz_min", v)) check("first resonance_hz >=", v, first_res, first_res >= v);
   if (lim("resonance_hz_max", v)) check("first resonance_hz <=", v, first_res, first_res <= v);
   if (lim("nrmse_max", v)) check("nrmse <=", v, ft.result.nrmse, ft.result.nrmse <= v);
+  if (!get("envelope").empty()) {  // the good units' band as a limit
+    std::vector<ident::Frf> good;
+    std::vector<std::string> names;
+    const std::string& cell = get("envelope");
+    for (std::size_t from = 0; from <= cell.size();) {
+      const std::size_t to = std::min(cell.find(';', from), cell.size());
+      names.push_back(cell.substr(from, to - from));
+      good.push_back(ident::read_frf_csv(names.back()));
+      from = to + 1;
+    }
+    std::vector<const ident::Frf*> refs;
+    for (const auto& g : good) refs.push_back(&g);
+    const ident::CompareResult cr = ident::compare_frf(frf, refs, names);
+    ojson env;
+    env["units"] = names.size();
+    env["lines_compared"] = cr.lines.size();
+    env["lines_outside"] = cr.outside;
+    ojson out_hz = ojson::array();
+    for (const auto& l : cr.lines)
+      if (l.outside && out_hz.size() < 50) out_hz.push_back(l.freq_hz);
+    env["outside_hz"] = out_hz;  // the first 50
+    line["envelope"] = env;
+    const double most = u.limit.at("envelope_outside_max");
+    check("lines outside envelope <=", most, static_cast<double>(cr.outside), static_cast<double>(cr.outside) <= most);
+  }
   if (!get("controller").empty()) {
     LoopArgs la;
     la.controller = get("controller");

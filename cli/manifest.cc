@@ -68,8 +68,9 @@ std::vector<Unit> read_manifest(const std::string& path, const std::map<std::str
                            std::count(kManifestSettings.begin(), kManifestSettings.end(), h) || std::count(kManifestLimits.begin(), kManifestLimits.end(), h);
         if (!known)
           throw InputError(where + ": column '" + h + "' is unknown; expected unit, record, input, output, reference, "
-                           "excitation, rate, controller, order, delay, band, integrators or a limit (pm_min, gm_min, "
-                           "ms_max_db, dc_gain_min, dc_gain_max, resonance_hz_min, resonance_hz_max, nrmse_max)");
+                           "excitation, rate, controller, order, delay, band, integrators, envelope or a limit (pm_min, "
+                           "gm_min, ms_max_db, dc_gain_min, dc_gain_max, resonance_hz_min, resonance_hz_max, nrmse_max, "
+                           "envelope_outside_max)");
         if (std::count(header.begin(), header.end(), h) > 1) throw InputError(where + ": column '" + h + "' appears twice");
       }
       for (const auto& r : kManifestRequired)
@@ -86,11 +87,31 @@ std::vector<Unit> read_manifest(const std::string& path, const std::map<std::str
     for (const auto& r : kManifestRequired)
       if (u.cell[r].empty()) throw InputError(where + ": '" + r + "' is empty; expected a value");
     if (!ids.insert(u.cell["unit"]).second) throw InputError(where + ": unit '" + u.cell["unit"] + "' appears twice");
+    if (!u.cell["envelope"].empty()) {  // FRF CSVs separated by ';'
+      std::string joined;
+      std::size_t from = 0;
+      const std::string& cell = u.cell["envelope"];
+      while (from <= cell.size()) {
+        std::size_t to = std::min(cell.find(';', from), cell.size());
+        std::string item = cell.substr(from, to - from);
+        const auto b = item.find_first_not_of(" \t"), e = item.find_last_not_of(" \t");
+        item = b == std::string::npos ? "" : item.substr(b, e - b + 1);
+        if (item.empty()) throw InputError(where + ": envelope has an empty item; expected FRF CSVs separated by ';'");
+        if (fs::path(item).is_relative()) item = (base / item).string();
+        joined += (joined.empty() ? "" : ";") + item;
+        from = to + 1;
+      }
+      u.cell["envelope"] = joined;
+    }
     for (const char* p : {"record", "excitation"})
       if (!u.cell[p].empty() && fs::path(u.cell[p]).is_relative()) u.cell[p] = (base / u.cell[p]).string();
     u.limit = file_limits;
     for (const auto& l : kManifestLimits)
       if (!u.cell[l].empty()) u.limit[l] = parse_number(u.cell[l], where + ": " + l);
+    if (u.cell["envelope"].empty() && u.limit.count("envelope_outside_max"))
+      throw InputError(where + ": limit envelope_outside_max needs an envelope; expected an 'envelope' value for unit '" +
+                       u.cell["unit"] + "'");
+    if (!u.cell["envelope"].empty() && !u.limit.count("envelope_outside_max")) u.limit["envelope_outside_max"] = 0;
     const bool loop = !u.cell["controller"].empty();
     for (const auto& [l, v] : kLoopLimitDefaults) {
       if (u.limit.count(l) && !loop)
@@ -120,7 +141,7 @@ std::map<std::string, double> read_limits(const std::string& path) {
   for (const auto& [k, v] : j.items()) {
     if (!std::count(kManifestLimits.begin(), kManifestLimits.end(), k))
       throw InputError(path + ": limit '" + k + "' is unknown; expected one of pm_min, gm_min, ms_max_db, dc_gain_min, "
-                       "dc_gain_max, resonance_hz_min, resonance_hz_max, nrmse_max");
+                       "dc_gain_max, resonance_hz_min, resonance_hz_max, nrmse_max, envelope_outside_max");
     if (!v.is_number()) throw InputError(path + ": limit '" + k + "' is not a number");
     out[k] = v.get<double>();
   }

@@ -20,14 +20,18 @@ double wrap180(double d) {  // into (-180, 180]
 // A reference's magnitude (dB) and unwrapped phase (deg) at f, linear in log
 // frequency between its two neighbouring lines; false when f lies outside
 // its lines or a neighbour is unreliable.
+// and its relative random error there (0 where not stated)
 bool at(const Frf& r, const std::vector<double>& mag_db, const std::vector<double>& ph_deg, double f, double& m,
-        double& p) {
+        double& p, double& e) {
   if (r.size() == 0 || f < r.freq_hz.front() || f > r.freq_hz.back()) return false;
+  const auto err = [&](std::size_t k) {
+    return k < r.rel_err.size() && std::isfinite(r.rel_err[k]) ? r.rel_err[k] : 0.0;
+  };
   const auto it = std::lower_bound(r.freq_hz.begin(), r.freq_hz.end(), f);
   const std::size_t hi = static_cast<std::size_t>(it - r.freq_hz.begin());
   if (*it == f) {
     if (!r.reliable[hi]) return false;
-    m = mag_db[hi], p = ph_deg[hi];
+    m = mag_db[hi], p = ph_deg[hi], e = err(hi);
     return true;
   }
   const std::size_t lo = hi - 1;
@@ -36,6 +40,7 @@ bool at(const Frf& r, const std::vector<double>& mag_db, const std::vector<doubl
   const double t = f0 > 0 ? std::log(f / f0) / std::log(f1 / f0) : (f - f0) / (f1 - f0);
   m = mag_db[lo] + t * (mag_db[hi] - mag_db[lo]);
   p = ph_deg[lo] + t * (ph_deg[hi] - ph_deg[lo]);
+  e = std::max(err(lo), err(hi));
   return true;
 }
 
@@ -67,17 +72,20 @@ CompareResult compare_frf(const Frf& frf, const std::vector<const Frf*>& refs, c
     bool any = false;
     double first_p = 0;
     for (std::size_t i = 0; i < refs.size(); ++i) {
-      double m, p;
-      if (!at(*refs[i], mags[i], phases[i], c.freq_hz, m, p)) continue;
+      double m, p, e;
+      if (!at(*refs[i], mags[i], phases[i], c.freq_hz, m, p, e)) continue;
+      // each reference stands for its unit within its own random error
+      const double wm = o.sigmas * 20 * std::log10(1 + e), wp = o.sigmas * e * 180 / M_PI;
       if (!any) {
-        c.lo_db = c.hi_db = m;
-        c.lo_deg = c.hi_deg = first_p = p;
+        first_p = p;
+        c.lo_db = m - wm, c.hi_db = m + wm;
+        c.lo_deg = p - wp, c.hi_deg = p + wp;
         any = true;
         continue;
       }
       p = first_p + wrap180(p - first_p);  // the same turn as the first reference
-      c.lo_db = std::min(c.lo_db, m), c.hi_db = std::max(c.hi_db, m);
-      c.lo_deg = std::min(c.lo_deg, p), c.hi_deg = std::max(c.hi_deg, p);
+      c.lo_db = std::min(c.lo_db, m - wm), c.hi_db = std::max(c.hi_db, m + wm);
+      c.lo_deg = std::min(c.lo_deg, p - wp), c.hi_deg = std::max(c.hi_deg, p + wp);
     }
     if (!any) {
       ++out.not_covered;

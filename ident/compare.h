@@ -2,10 +2,12 @@
 // units (a golden-unit band): per line of the FRF, the reference magnitude
 // (dB) and phase (deg) interpolated at its frequency (linear in log
 // frequency, phase unwrapped along each reference), the band [lo, hi] over
-// the references (one reference: lo = hi), and whether the FRF leaves the
-// band by more than the tolerance plus `sigmas` times its own random error
-// (magnitude: 20 log10(1 + rel_err) dB; phase: rel_err rad, the standard
-// deviation of the phase for a small error, Bendat & Piersol).
+// the references, each widened by `sigmas` times its own random error (a
+// reference stands for its unit only to within its error), and whether the
+// FRF leaves the band by more than the tolerance plus `sigmas` times its
+// own random error (magnitude: 20 log10(1 + rel_err) dB; phase: rel_err
+// rad, the standard deviation of the phase for a small error, Bendat &
+// Piersol).
 #pragma once
 
 #include <cstddef>

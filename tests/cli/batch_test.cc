@@ -205,4 +205,37 @@ TEST(Batch, BadManifestIsRefusedBeforeAnythingRuns) {
   }
 }
 
+// The golden-unit band as a batch limit (issue 9): units 0 and 4 of the
+// fleet (resonances at 40 and 42 Hz, DC gains 2 and 2.08) are the good
+// units; unit 2 (41 Hz, 2.04) lies between them and passes; unit 30 (55 Hz,
+// DC gain 2.6: 1.9 dB above the band, beyond the 1 dB allowed) leaves the
+// band from the lowest lines on and fails the envelope check.
+TEST(Batch, TheGoodUnitsBandIsALimit) {
+  TempDir d;
+  for (int k : {0, 4, 2, 30}) d.write("U" + std::to_string(k) + ".csv", unit_record(k));
+  for (int k : {0, 4}) {
+    const auto r = benchid::test::run_benchid(d, "frf " + d.file("U" + std::to_string(k) + ".csv") +
+                                                     " --input drive_v --output pos_mm -q -o " + d.file("good" + std::to_string(k) + ".csv"));
+    ASSERT_EQ(r.code, 0) << r.err;
+  }
+  d.write("m.csv", "unit,record,input,output,order,delay,band,envelope\n"
+                   "U2,U2.csv,drive_v,pos_mm,2,0,1:300,good0.csv;good4.csv\n"
+                   "U30,U30.csv,drive_v,pos_mm,2,0,1:300,good0.csv;good4.csv\n");
+  const auto r = benchid::test::run_benchid(d, "batch " + d.file("m.csv") + " -o " + d.file("out.jsonl"));
+  EXPECT_EQ(r.code, 3) << r.err;  // a unit failed its limits
+  const auto lines = lines_of(slurp(d.file("out.jsonl")));
+  ASSERT_EQ(lines.size(), 2u);
+  const auto u2 = nlohmann::json::parse(lines[0]), u30 = nlohmann::json::parse(lines[1]);
+  EXPECT_EQ(u2["status"], "pass") << lines[0];
+  EXPECT_EQ(u2["envelope"]["lines_outside"], 0) << lines[0];
+  EXPECT_EQ(u30["status"], "fail") << lines[1];
+  EXPECT_GT(u30["envelope"]["lines_outside"].get<int>(), 100);
+  EXPECT_LT(u30["envelope"]["outside_hz"][0].get<double>(), 1.0) << lines[1];  // from the first lines on
+  // the limit needs an envelope
+  d.write("bad.csv", "unit,record,input,output,envelope_outside_max\nU2,U2.csv,drive_v,pos_mm,3\n");
+  const auto bad = benchid::test::run_benchid(d, "batch " + d.file("bad.csv") + " -o " + d.file("bad.jsonl"));
+  EXPECT_EQ(bad.code, 2);
+  EXPECT_NE(bad.err.find("envelope_outside_max needs an envelope"), std::string::npos) << bad.err;
+}
+
 }  // namespace

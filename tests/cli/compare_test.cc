@@ -80,11 +80,12 @@ TEST(Compare, AgainstOneReferenceTheBandIsTheReferenceItself) {
   const std::string ref = unit(d, "ref.csv", 1.0, 50);
   const auto same = run_benchid(d, "compare " + unit(d, "same.csv", 1.0, 50) + " --against " + ref);
   EXPECT_NE(same.out.find("every line inside the band"), std::string::npos) << same.out;
-  // 1.5 dB of gain error, with a tolerance of 1 dB and 3 x 0.086 dB of random error: outside
-  const auto off = run_benchid(d, "compare " + unit(d, "off.csv", std::pow(10, 1.5 / 20), 50) + " --against " + ref);
+  // 2 dB of gain error: allowed are 1 dB plus 3 x 0.086 dB (1 % error) for
+  // the FRF and as much for the reference, 1.52 dB: outside
+  const auto off = run_benchid(d, "compare " + unit(d, "off.csv", std::pow(10, 2.0 / 20), 50) + " --against " + ref);
   EXPECT_NE(off.out.find("399 lines outside"), std::string::npos) << off.out;
-  // with 2 dB allowed: inside
-  const auto loose = run_benchid(d, "compare " + d.file("off.csv") + " --against " + ref + " --tolerance-db 2");
+  // with 1.5 dB of tolerance, 2.02 dB allowed: inside
+  const auto loose = run_benchid(d, "compare " + d.file("off.csv") + " --against " + ref + " --tolerance-db 1.5");
   EXPECT_NE(loose.out.find("every line inside the band"), std::string::npos) << loose.out;
   // other units are refused
   std::string other = slurp(ref);
