@@ -540,7 +540,9 @@ Frf estimate_frf(const std::vector<RecordReader*>& readers, const FrfChannels& c
   f.output = info.channels[sel[1]].name;
   f.output_unit = info.channels[sel[1]].unit;
   if (have_ref) f.reference = info.channels[sel[2]].name;
-  for (const auto& w : reader.warnings()) f.warnings.insert(f.warnings.begin(), w);
+  for (std::size_t r = readers.size(); r-- > 0;)  // every record's reading warnings (clipping, ...) first
+    for (auto w = readers[r]->warnings().rbegin(); w != readers[r]->warnings().rend(); ++w)
+      f.warnings.insert(f.warnings.begin(), *w);
   return f;
 }
 
