@@ -17,6 +17,7 @@ namespace {
 
 struct Common {
   std::string out, sidecar, name = "excitation", unit, sample_format = "pcm24";
+  std::string levels;  // "L1,L2": the two-level linearity check
   double headroom_db = ident::SignalWriteOptions{}.headroom_db;
   bool quiet = false;
 };
@@ -28,7 +29,38 @@ std::string default_sidecar(const std::string& out) {
   return stem + ".excite.json";
 }
 
-void emit(const ident::Excitation& e, const Common& c, const ident::SweepOptions* sweep, bool signal_optional) {
+// The signal played twice at two levels of its AC part (a fraction of the
+// amplitude each), for the linearity check of `frf --excitation`: the first
+// half of the periods at L1, the second at L2, a raised-cosine ramp-in over
+// the first period and ramp-out over the last (frf leaves out the first
+// period of each half and the last period).
+ident::Excitation at_two_levels(ident::Excitation e, const std::string& spec) {
+  const std::vector<std::string> items = split_list(spec);
+  if (items.size() != 2) throw InputError("--levels '" + spec + "': expected two fractions L1,L2, e.g. 0.3,1");
+  const double l1 = parse_number(items[0], "--levels"), l2 = parse_number(items[1], "--levels");
+  if (!(l1 > 0 && l1 <= 1 && l2 > 0 && l2 <= 1) || l1 == l2)
+    throw InputError("--levels '" + spec + "': expected two different fractions of the amplitude in (0, 1]");
+  if (e.period == 0 || e.kind == "steps")
+    throw InputError("--levels needs a periodic excitation: multisine, prbs, or a sweep with --repeat 2 or more");
+  if (e.repeats < 2) throw InputError("--levels needs at least 2 periods per level; expected --repeat 2 or more");
+  const std::size_t n = e.samples.size(), p = e.period;
+  std::vector<double> x(2 * n);
+  for (std::size_t i = 0; i < 2 * n; ++i) {
+    const double l = i < n ? l1 : l2;
+    double ramp = 1.0;
+    if (i < p) ramp = 0.5 - 0.5 * std::cos(M_PI * static_cast<double>(i) / static_cast<double>(p));
+    if (i >= 2 * n - p) ramp = 0.5 - 0.5 * std::cos(M_PI * static_cast<double>(2 * n - 1 - i) / static_cast<double>(p));
+    x[i] = e.offset + l * ramp * (e.samples[i % n] - e.offset);
+  }
+  e.samples = std::move(x);
+  e.repeats *= 2;
+  e.levels = {l1, l2};
+  e.description += "; played at levels " + fmt_num(l1) + " then " + fmt_num(l2) + " of it (linearity check)";
+  return e;
+}
+
+void emit(const ident::Excitation& e_in, const Common& c, const ident::SweepOptions* sweep, bool signal_optional) {
+  const ident::Excitation e = c.levels.empty() ? e_in : at_two_levels(e_in, c.levels);
   if (c.out.empty() && !signal_optional) throw InputError("no output file; expected -o FILE (.csv, .wav, .flac, .aiff)");
   if (c.out.empty() && c.sidecar.empty()) throw InputError("nothing to write; expected -o FILE and/or --plan FILE");
   if (!(c.headroom_db >= 0 && c.headroom_db <= 60))
@@ -78,6 +110,9 @@ void add_common(CLI::App* s, Common& c, double& rate, double& amplitude, double&
   s->add_option("--name", c.name, "CSV column name (default excitation)");
   s->add_option("--unit", c.unit, "CSV column unit, e.g. V (default none)");
   s->add_flag("-q,--quiet", c.quiet, "No summary on stderr");
+  if (!plan)
+    s->add_option("--levels", c.levels, "L1,L2: play the periodic signal twice, at L1 then L2 times its amplitude, "
+                  "with a ramp in and out, for the linearity check of 'frf --excitation' (default: once)");
 }
 
 

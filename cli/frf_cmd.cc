@@ -1,5 +1,7 @@
 // benchid frf RECORD --input CH --output CH [--reference CH] [options] [-o FRF.csv]
+#include <algorithm>
 #include <cmath>
+#include <functional>
 #include <iostream>
 #include <limits>
 #include <memory>
@@ -13,6 +15,7 @@
 #include "cli/parse.h"
 #include "cli/text_report.h"
 #include "ident/chain.h"
+#include "ident/compare.h"
 #include "ident/error.h"
 #include "ident/frf.h"
 #include "ident/frf_csv.h"
@@ -43,6 +46,68 @@ std::vector<std::string> frf_inputs(const FrfArgs& a) {
   return v;
 }
 
+namespace {
+
+// The linearity check of a two-level excitation (excite --levels): the FRF of
+// each half of the record (each without its first period, the ramp-in or
+// the level step, and the second without the ramp-out), compared line by
+// line as in `compare` with 0.1 dB and 1 deg allowed beyond 3 times the
+// combined random error. The FRF returned is the one at the higher level;
+// where the two disagree a warning names the lines (friction, backlash and
+// saturation all make the response depend on the level).
+ident::Frf two_level_frf(const FrfArgs& a, const ident::Excitation& e, const ident::FrfOptions& o_in,
+                         ident::RecordReader& reader, const std::function<std::unique_ptr<ident::RecordReader>()>& reopen) {
+  if (!a.more_records.empty() || a.from_s > 0 || a.to_s > 0 || a.split > 0)
+    throw InputError("a two-level excitation is split at its level change; expected one record without --from, --to "
+                     "or --split");
+  const double rate = e.rate_hz, per = static_cast<double>(e.period);
+  const double half_s = static_cast<double>(e.repeats / 2) * per / rate;
+  ident::FrfOptions lo = o_in, hi = o_in;
+  lo.to_s = half_s;
+  lo.skip_periods = 1;
+  hi.from_s = half_s;
+  hi.to_s = (static_cast<double>(e.repeats) * per - per) / rate;
+  hi.skip_periods = 1;
+  const ident::FrfChannels ch{a.input, a.output, a.reference};
+  ident::Frf first = ident::estimate_frf(reader, ch, lo);
+  auto again = reopen();
+  ident::Frf second = ident::estimate_frf(*again, ch, hi);
+  const bool second_higher = e.levels[1] > e.levels[0];
+  ident::Frf& top = second_higher ? second : first;
+  const ident::Frf& other = second_higher ? first : second;
+  const double l_top = std::max(e.levels[0], e.levels[1]), l_other = std::min(e.levels[0], e.levels[1]);
+  ident::CompareOptions co;
+  co.tolerance_db = 0.1;
+  co.tolerance_deg = 1.0;
+  const ident::CompareResult r = ident::compare_frf(top, {&other}, {"level " + fmt_num(l_other)}, co);
+  std::string where_hz;
+  double worst = 0, worst_hz = 0;
+  for (const auto& c : r.lines)
+    if (c.outside) {
+      if (where_hz.empty()) where_hz = fmt_num(c.freq_hz);
+      if (c.excess_db > worst) worst = c.excess_db, worst_hz = c.freq_hz;
+    }
+  double last_hz = 0;
+  for (const auto& c : r.lines)
+    if (c.outside) last_hz = c.freq_hz;
+  top.corrections.erase(std::remove_if(top.corrections.begin(), top.corrections.end(),
+                                       [](const std::string& c) { return c.rfind("samples ", 0) == 0; }),
+                        top.corrections.end());
+  top.corrections.push_back("linearity check: levels " + fmt_num(l_other) + " and " + fmt_num(l_top) + ", " +
+                            std::to_string(r.outside) + " of " + std::to_string(r.lines.size()) +
+                            " lines differ beyond 3 sigma + 0.1 dB/1 deg; this FRF is at level " + fmt_num(l_top));
+  if (r.outside > 0)
+    top.warnings.push_back("the response at levels " + fmt_num(l_other) + " and " + fmt_num(l_top) + " differs beyond " +
+                           "the errors at " + std::to_string(r.outside) + " of " + std::to_string(r.lines.size()) +
+                           " lines (" + where_hz + " to " + fmt_num(last_hz) + " Hz" +
+                           (worst > 0 ? "; the largest magnitude difference " + fmt_num(worst) + " dB beyond the allowance at " + fmt_num(worst_hz) + " Hz" : std::string()) +
+                           "): the plant is not linear at these levels (friction, backlash, saturation); this FRF is "
+                           "the one at level " + fmt_num(l_top));
+  return top;
+}
+
+}  // namespace
+
 ident::Frf compute_frf(const FrfArgs& a) {
   if (!a.excitation.empty() && !a.stepped.empty()) throw InputError("give --excitation or --stepped, not both");
   std::string side_path = !a.excitation.empty() ? a.excitation : a.stepped;
@@ -63,18 +128,21 @@ ident::Frf compute_frf(const FrfArgs& a) {
   if (a.threads > 256) throw InputError("--threads " + std::to_string(a.threads) + ": expected 0 (one per core) to 256");
   if (!(a.jitter > 0 && a.jitter < 0.5))
     throw InputError("--jitter-tolerance " + fmt_num(a.jitter) + ": expected a fraction in (0, 0.5)");
-  auto reader = ident::open_record(a.record, ro);
+  // a record opened with the --scale factors applied
+  const auto open_scaled = [&](const std::string& path) {
+    auto rd = ident::open_record(path, ro);
+    for (const auto& s : a.scales) {
+      const auto c = s.rfind(':');
+      if (c == std::string::npos || c == 0)
+        throw InputError("--scale '" + s + "': expected CH:FACTOR, e.g. 2:10.5");
+      rd->set_scale(rd->channel_index(s.substr(0, c)), parse_number(s.substr(c + 1), "--scale factor"));
+    }
+    return rd;
+  };
+  auto reader = open_scaled(a.record);
   // further runs of the same measurement, averaged in
   std::vector<std::unique_ptr<ident::RecordReader>> more;
-  for (const auto& r : a.more_records) more.push_back(ident::open_record(r, ro));
-  for (const auto& s : a.scales) {
-    const auto c = s.rfind(':');
-    if (c == std::string::npos || c == 0)
-      throw InputError("--scale '" + s + "': expected CH:FACTOR, e.g. 2:10.5");
-    const double factor = parse_number(s.substr(c + 1), "--scale factor");
-    reader->set_scale(reader->channel_index(s.substr(0, c)), factor);
-    for (auto& m : more) m->set_scale(m->channel_index(s.substr(0, c)), factor);
-  }
+  for (const auto& r : a.more_records) more.push_back(open_scaled(r));
   // chain corrections name the input or the output channel
   ident::ChainCorrection chain;
   const std::size_t in_ch = reader->channel_index(a.input), out_ch = reader->channel_index(a.output);
@@ -165,7 +233,11 @@ ident::Frf compute_frf(const FrfArgs& a) {
     }
     std::vector<ident::RecordReader*> readers{reader.get()};
     for (auto& m : more) readers.push_back(m.get());
-    f = ident::estimate_frf(readers, {a.input, a.output, a.reference}, o);
+    if (side && side->excitation.levels.size() == 2) {
+      f = two_level_frf(a, side->excitation, o, *reader, [&] { return open_scaled(a.record); });
+    } else {
+      f = ident::estimate_frf(readers, {a.input, a.output, a.reference}, o);
+    }
   }
   if (side) {
     if (std::fabs(f.rate_hz - side->excitation.rate_hz) > 1e-6 * side->excitation.rate_hz)

@@ -119,6 +119,8 @@ struct Excitation {
   double crest_factor_initial = 0;  // before crest-factor reduction (multisine)
   double rms = 0;              // of the AC part
   std::string description;     // one line: what was made
+  std::vector<double> levels;  // two-level linearity check: the first half of the periods at
+                               // levels[0] times the AC part, the second half at levels[1]; else empty
 };
 
 Excitation make_sweep(const SweepOptions& o);

@@ -114,6 +114,7 @@ std::string sidecar_json(const Excitation& e, const std::string& signal_file, co
   j["crest_factor"] = e.crest_factor;
   j["rms"] = e.rms;
   j["signal_file"] = signal_file;
+  if (!e.levels.empty()) j["levels"] = e.levels;
   if (sweep) {
     j["sweep"] = {{"f0_hz", sweep->f0_hz},
                   {"f1_hz", sweep->f1_hz},
@@ -189,6 +190,16 @@ Sidecar read_sidecar(const std::string& path) {
       e.lines.push_back(v.get<std::size_t>());
     }
     if (!e.lines.empty() && e.period == 0) bad(path, "lines are given but period_samples is 0; expected the period they belong to");
+  }
+  if (j.contains("levels")) {
+    const json& l = j["levels"];
+    if (!l.is_array() || l.size() != 2 || !l[0].is_number() || !l[1].is_number() || !(l[0].get<double>() > 0) ||
+        !(l[1].get<double>() > 0) || l[0].get<double>() > 1 || l[1].get<double>() > 1 || l[0] == l[1])
+      bad(path, "levels is " + l.dump().substr(0, 40) + "; expected [L1, L2], two different fractions in (0, 1]");
+    if (e.period == 0 || e.repeats < 4 || e.repeats % 2 != 0)
+      bad(path, "levels need a periodic signal of an even number of at least 4 periods; expected period_samples and "
+                "repeats from 'benchid excite --levels'");
+    e.levels = {l[0].get<double>(), l[1].get<double>()};
   }
   e.amplitude = num(j, "amplitude", path, false);
   e.offset = num(j, "offset", path, false);

@@ -66,9 +66,10 @@ std::string write_record(const TempDir& d, const std::string& name, const std::f
 }
 
 // Worst relative error of the FRF file against `truth` over its lines.
-double worst_error(const std::string& frf_path, const std::function<cplx(double)>& truth) {
+double worst_error(const std::string& frf_path, const std::function<cplx(double)>& truth,
+                   std::size_t lines = kLines) {
   const benchid::ident::Frf f = benchid::ident::read_frf_csv(frf_path);
-  EXPECT_EQ(f.size(), static_cast<std::size_t>(kLines));
+  EXPECT_EQ(f.size(), lines);
   double worst = 0;
   for (std::size_t i = 0; i < f.size(); ++i)
     worst = std::max(worst, std::abs(f.h[i] - truth(f.freq_hz[i])) / std::abs(truth(f.freq_hz[i])));
@@ -262,6 +263,57 @@ TEST(StitchCli, JoinsTwoMeasurementsAndRecordsTheSeam) {
   const auto one = run_benchid(d, "stitch " + d.file("welch.csv") + " -o " + d.file("t.csv"));
   EXPECT_EQ(one.code, 2);
   EXPECT_FALSE(std::filesystem::exists(d.file("t.csv")));
+}
+
+// The two-level linearity check (issue 9): `excite multisine --levels 0.2,1`
+// plays the signal at 20 % and then at full amplitude; `frf --excitation`
+// measures each half and compares them. A linear plant (a Butterworth
+// low-pass, noise-free) gives the same response at both levels; the same
+// plant followed by a saturation that only the full level reaches is
+// flagged at the excited lines. The plant is made up; that a saturation
+// makes the describing function depend on the level is common practice.
+TEST(Linearity, TwoLevelsFlagASaturationAndPassALinearPlant) {
+  TempDir d;
+  const auto ex = run_benchid(d, "excite multisine -q --rate 1000 --f0 2 --f1 200 --resolution 2 --amplitude 1 "
+                                 "--levels 0.2,1 -o " + d.file("two.csv"));
+  ASSERT_EQ(ex.code, 0) << ex.err;
+  std::ifstream in(d.file("two.csv"));
+  std::string line, lin = "time_s,u,y\n", sat = lin;
+  const benchid::test::Biquad lp = benchid::test::Biquad::butterworth_lowpass(0.05);
+  std::vector<double> t, u;
+  while (std::getline(in, line)) {
+    if (line.empty() || line[0] == '#' || line[0] == 't') continue;
+    t.push_back(std::stod(line));
+    u.push_back(std::stod(line.substr(line.find(',') + 1)));
+  }
+  const std::vector<double> y = lp.filter(u);
+  double peak = 0;
+  for (double v : y) peak = std::max(peak, std::fabs(v));
+  char row[128];
+  for (std::size_t i = 0; i < u.size(); ++i) {
+    std::snprintf(row, sizeof row, "%.6f,%.17g,%.17g\n", t[i], u[i], y[i]);
+    lin += row;
+    // clipped at 35 % of the full-level peak: the 20 % level (its peak 20 %) never reaches it
+    std::snprintf(row, sizeof row, "%.6f,%.17g,%.17g\n", t[i], u[i], std::clamp(y[i], -0.35 * peak, 0.35 * peak));
+    sat += row;
+  }
+  d.write("lin.csv", lin);
+  d.write("sat.csv", sat);
+  const std::string args = " --input u --output y --excitation " + d.file("two.excite.json") + " -o ";
+  const auto a = run_benchid(d, "frf " + d.file("lin.csv") + args + d.file("lin_frf.csv"));
+  ASSERT_EQ(a.code, 0) << a.err;
+  EXPECT_EQ(a.err.find("not linear"), std::string::npos) << a.err;
+  EXPECT_NE(slurp(d.file("lin_frf.csv")).find("linearity check: levels 0.2 and 1, 0 of 40 lines differ"), std::string::npos);
+  // the linear plant's FRF is the low-pass itself
+  EXPECT_LT(worst_error(d.file("lin_frf.csv"), [&](double f) { return lp.response(f / 1000); }, 40), 1e-6);
+  const auto b = run_benchid(d, "frf " + d.file("sat.csv") + args + d.file("sat_frf.csv"));
+  ASSERT_EQ(b.code, 0) << b.err;
+  EXPECT_NE(b.err.find("the plant is not linear at these levels"), std::string::npos) << b.err;
+  EXPECT_NE(slurp(d.file("sat_frf.csv")).find("linearity check: levels 0.2 and 1, 40 of 40 lines differ"), std::string::npos);
+  // --levels needs a periodic signal
+  const auto bad = run_benchid(d, "excite chirp -q --rate 1000 --f1 100 --duration 1 --levels 0.2,1 -o " + d.file("c.csv"));
+  EXPECT_EQ(bad.code, 2);
+  EXPECT_NE(bad.err.find("--levels needs"), std::string::npos) << bad.err;
 }
 
 }  // namespace
