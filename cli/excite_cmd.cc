@@ -1,6 +1,10 @@
 // benchid excite KIND [options] -o FILE: make the excitation a bench will
 // play, and a sidecar JSON that tells `benchid frf --excitation` how.
 #include <cmath>
+#include <vector>
+#include <functional>
+#include <complex>
+#include <algorithm>
 #include <iostream>
 #include <memory>
 
@@ -10,6 +14,7 @@
 #include "ident/error.h"
 #include "ident/excite.h"
 #include "ident/excite_io.h"
+#include "ident/frf_csv.h"
 
 namespace benchid::cli {
 
@@ -116,6 +121,57 @@ void add_common(CLI::App* s, Common& c, double& rate, double& amplitude, double&
 }
 
 
+// An earlier FRF of the plant: the response it predicts, and the drive
+// shaped so that the response is flat.
+struct PlantOptions {
+  std::string plant;           // FRF CSV from 'benchid frf' (its output is the predicted quantity)
+  bool flat = false;           // line amplitudes 1/|H|: a flat response instead of a flat drive
+  double max_boost_db = 40;    // flat: the drive's line amplitudes span at most this range
+  double response_limit = 0;   // > 0: refuse a signal whose predicted peak response exceeds it
+};
+
+// H at f from the FRF's reliable lines: log|H| and the unwrapped phase
+// linear in log frequency; lo/hi: the span of those lines.
+std::function<std::complex<double>(double)> plant_response(const ident::Frf& f, double& lo, double& hi) {
+  auto fs = std::make_shared<std::vector<double>>();
+  auto lm = std::make_shared<std::vector<double>>();
+  auto ph = std::make_shared<std::vector<double>>();
+  const std::vector<double> pd = f.phase_deg();
+  for (std::size_t k = 0; k < f.size(); ++k)
+    if (f.reliable[k] && f.freq_hz[k] > 0 && std::abs(f.h[k]) > 0) {
+      fs->push_back(f.freq_hz[k]);
+      lm->push_back(std::log(std::abs(f.h[k])));
+      ph->push_back(pd[k] * M_PI / 180);
+    }
+  if (fs->size() < 2) throw InputError(f.source + ": fewer than 2 reliable lines; expected an FRF of the plant");
+  lo = fs->front(), hi = fs->back();
+  return [fs, lm, ph](double x) {
+    const auto it = std::upper_bound(fs->begin(), fs->end(), x);
+    const std::size_t i = std::clamp<std::size_t>(static_cast<std::size_t>(it - fs->begin()), 1, fs->size() - 1);
+    const double t = std::log(x / (*fs)[i - 1]) / std::log((*fs)[i] / (*fs)[i - 1]);
+    return std::polar(std::exp((*lm)[i - 1] + t * ((*lm)[i] - (*lm)[i - 1])), (*ph)[i - 1] + t * ((*ph)[i] - (*ph)[i - 1]));
+  };
+}
+
+// Prints the predicted peak response and refuses one above the limit, before anything is written.
+void predict(const ident::Excitation& e, const ident::Frf& plant, const std::function<std::complex<double>(double)>& h,
+             double lo, double hi, const PlantOptions& p, bool quiet) {
+  if (e.band_lo_hz < lo * (1 - 1e-9) || e.band_hi_hz > hi * (1 + 1e-9))
+    throw InputError(p.plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) + " Hz but the signal " +
+                     "excites " + fmt_num(e.band_lo_hz) + " to " + fmt_num(e.band_hi_hz) +
+                     " Hz; expected --f0/--f1 within the measured band to predict the response");
+  double peak = 0;
+  for (double v : ident::predicted_response(e, h)) peak = std::max(peak, std::fabs(v));
+  const std::string unit = plant.output_unit.empty() ? "" : " " + plant.output_unit;
+  if (!quiet)
+    std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
+              << "' (steady state, the AC part; from " << p.plant << ")\n";
+  if (p.response_limit > 0 && peak > p.response_limit)
+    throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + plant.output + "' exceeds --response-limit " +
+                     fmt_num(p.response_limit) + "; expected --amplitude at most " +
+                     fmt_num(e.amplitude * p.response_limit / peak) + " (nothing was written)");
+}
+
 }  // namespace
 
 void add_excite_command(CLI::App& app) {
@@ -169,10 +225,43 @@ void add_excite_command(CLI::App& app) {
     s->add_option("--crest-iterations", o->crest_iterations, "Passes of iterative clipping to lower the crest "
                   "factor (default 0: none)");
     s->add_option("--repeat", o->repeats, "Periods written; the first is usually skipped as transient (default 4)");
-    s->callback([o, c, phases, spacing] {
+    auto pp = std::make_shared<PlantOptions>();
+    s->add_option("--plant", pp->plant, "An earlier FRF CSV of the plant: the peak response it predicts at its output "
+                  "(travel, speed, current) is printed before anything is written (default: none)");
+    s->add_flag("--flat-response", pp->flat, "With --plant: line amplitudes 1/|H| so the response, not the drive, is "
+                "flat (within --max-boost)");
+    s->add_option("--max-boost", pp->max_boost_db, "With --flat-response: the drive's line amplitudes span at most this "
+                  "many dB (default 40)");
+    s->add_option("--response-limit", pp->response_limit, "With --plant: refuse a signal whose predicted peak response "
+                  "exceeds this, in the FRF output's unit (default: no limit)");
+    s->callback([o, c, phases, spacing, pp] {
       o->phases = ident::parse_phases(*phases);
       o->spacing = ident::parse_spacing(*spacing);
-      emit(ident::make_multisine(*o), *c, nullptr, false);
+      if (pp->plant.empty()) {
+        if (pp->flat || pp->response_limit > 0) throw InputError("--flat-response and --response-limit need --plant FRF.csv");
+        emit(ident::make_multisine(*o), *c, nullptr, false);
+        return;
+      }
+      if (!(pp->max_boost_db > 0 && pp->max_boost_db <= 120))
+        throw InputError("--max-boost " + fmt_num(pp->max_boost_db) + " dB: expected 0 to 120 dB");
+      const ident::Frf plant = ident::read_frf_csv(pp->plant);
+      double lo = 0, hi = 0;
+      const auto h = plant_response(plant, lo, hi);
+      if (pp->flat) {
+        o->profile.clear();
+        double a_min = 1e300;
+        for (std::size_t k = 0; k < plant.size(); ++k)
+          if (plant.reliable[k] && plant.freq_hz[k] > 0 && std::abs(plant.h[k]) > 0)
+            a_min = std::min(a_min, 1 / std::abs(plant.h[k]));
+        const double cap = a_min * std::pow(10.0, pp->max_boost_db / 20);
+        for (std::size_t k = 0; k < plant.size(); ++k)
+          if (plant.reliable[k] && plant.freq_hz[k] > 0 && std::abs(plant.h[k]) > 0)
+            o->profile.emplace_back(plant.freq_hz[k], std::min(1 / std::abs(plant.h[k]), cap));
+      }
+      ident::Excitation e = ident::make_multisine(*o);
+      if (pp->flat) e.description += "; shaped for a flat response at '" + plant.output + "' (" + pp->plant + ")";
+      predict(e, plant, h, lo, hi, *pp, c->quiet);
+      emit(e, *c, nullptr, false);
     });
   }
 

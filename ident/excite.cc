@@ -181,6 +181,9 @@ std::vector<std::complex<double>> analyse(const std::vector<double>& x, const st
 
 void validate(const MultisineOptions& o) {
   check_rate(o.rate_hz);
+  for (const auto& [f, a] : o.profile)
+    require(std::isfinite(f) && f > 0 && std::isfinite(a) && a > 0,
+            "profile point " + fmt_num(f) + ":" + fmt_num(a) + ": expected positive FREQ_HZ:AMPLITUDE");
   require(o.period > 0 || (std::isfinite(o.resolution_hz) && o.resolution_hz > 0),
           "resolution = " + fmt_num(o.resolution_hz) + " Hz: must be positive");
   const std::size_t p = multisine_period(o);
@@ -220,14 +223,43 @@ Excitation make_multisine(const MultisineOptions& o) {
     }
   }
   const double f = static_cast<double>(lines.size());
+  // line amplitudes: equal, or from the profile (log-log between its points, flat beyond)
+  std::vector<double> amp(lines.size(), 1.0);
+  if (!o.profile.empty()) {
+    auto prof = o.profile;
+    std::sort(prof.begin(), prof.end());
+    for (std::size_t i = 0; i < lines.size(); ++i) {
+      const double fk = static_cast<double>(lines[i]) * res;
+      if (fk <= prof.front().first) amp[i] = prof.front().second;
+      else if (fk >= prof.back().first) amp[i] = prof.back().second;
+      else {
+        const auto it = std::upper_bound(prof.begin(), prof.end(), std::make_pair(fk, 0.0));
+        const auto& [f0, a0] = *(it - 1);
+        const auto& [f1, a1] = *it;
+        const double t = std::log(fk / f0) / std::log(f1 / f0);
+        amp[i] = std::exp(std::log(a0) + t * (std::log(a1) - std::log(a0)));
+      }
+    }
+  }
+  double power = 0;
+  for (double a : amp) power += a * a;
   std::vector<std::complex<double>> coef(lines.size());
   std::mt19937_64 gen(o.seed);
   std::uniform_real_distribution<double> uni(0.0, 2 * kPi);
+  double acc = 0, sum_p = 0;  // running sums of the general Schroeder formula
   for (std::size_t i = 0; i < lines.size(); ++i) {
-    // Schroeder 1970 for equal powers: phi_i = -pi i (i - 1) / F, i = 1..F
+    // Schroeder 1970 for equal powers: phi_i = -pi i (i - 1) / F, i = 1..F; for
+    // powers p_l (sum 1): phi_i = -2 pi sum_{l < i} (i - l) p_l
     const double ii = static_cast<double>(i + 1);
-    const double phi = o.phases == Phases::schroeder ? -kPi * ii * (ii - 1) / f : uni(gen);
-    coef[i] = std::polar(1.0, phi);
+    double phi;
+    if (o.phases != Phases::schroeder) phi = uni(gen);
+    else if (o.profile.empty()) phi = -kPi * ii * (ii - 1) / f;
+    else {
+      acc += sum_p;  // sum_{l < i} (i - l) p_l grows by sum_{l < i} p_l at each step
+      phi = -2 * kPi * acc;
+      sum_p += amp[i] * amp[i] / power;
+    }
+    coef[i] = std::polar(amp[i], phi);
   }
   std::vector<double> x = synthesize(period, lines, coef);
   Excitation e;
@@ -244,7 +276,8 @@ Excitation make_multisine(const MultisineOptions& o) {
     const double clip = 0.9 * best_cf * rms;
     for (double& v : x) v = std::clamp(v, -clip, clip);
     auto c = analyse(x, lines);
-    for (auto& z : c) z = std::abs(z) > 0 ? z / std::abs(z) : std::complex<double>(1.0);
+    for (std::size_t i = 0; i < c.size(); ++i)
+      c[i] = amp[i] * (std::abs(c[i]) > 0 ? c[i] / std::abs(c[i]) : std::complex<double>(1.0));
     x = synthesize(period, lines, c);
     const double cf = crest_factor(x);
     if (cf < best_cf) best_cf = cf, best = x;
@@ -424,6 +457,16 @@ Excitation make_steps(const StepsOptions& o) {
                   fmt_num(o.f1_hz) + " Hz, " + fmt_num(o.settle_cycles) + " settle + " + fmt_num(o.measure_cycles) +
                   " measure cycles, " + fmt_num(static_cast<double>(pos) / o.rate_hz) + " s in all";
   return e;
+}
+
+std::vector<double> predicted_response(const Excitation& e, const std::function<std::complex<double>(double)>& h) {
+  if (e.period == 0 || e.lines.empty() || e.samples.size() < e.period)
+    throw InputError("a predicted response needs a periodic excitation with known lines (multisine, prbs)");
+  const std::vector<double> one(e.samples.end() - static_cast<long>(e.period), e.samples.end());  // a steady period
+  std::vector<std::complex<double>> u = analyse(one, e.lines);
+  const double res = e.rate_hz / static_cast<double>(e.period);
+  for (std::size_t i = 0; i < u.size(); ++i) u[i] *= 2.0 / static_cast<double>(e.period) * h(static_cast<double>(e.lines[i]) * res);
+  return synthesize(e.period, e.lines, u);
 }
 
 }  // namespace benchid::ident

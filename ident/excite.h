@@ -20,6 +20,8 @@
 
 #include <cstddef>
 #include <cstdint>
+#include <complex>
+#include <functional>
 #include <string>
 #include <vector>
 
@@ -64,6 +66,10 @@ struct MultisineOptions {
   double amplitude = 0.5;      // peak of the whole signal, output unit
   double offset = 0;
   std::size_t repeats = 4;     // periods written
+  std::vector<std::pair<double, double>> profile;  // (freq_hz, relative line amplitude), log-log
+                                                   // interpolated, held flat beyond its ends; empty:
+                                                   // equal amplitudes. Schroeder phases then follow
+                                                   // the line powers (Schroeder 1970).
 };
 void validate(const MultisineOptions& o);
 
@@ -130,5 +136,11 @@ Excitation make_steps(const StepsOptions& o);
 
 // peak / rms of x about its mean
 double crest_factor(const std::vector<double>& x);
+
+// One period of the steady-state response of a plant to a periodic
+// excitation (its AC part): sum over the excited lines of H(f_k) U_k.
+// For the peak travel, speed or current an earlier FRF predicts before the
+// signal is played.
+std::vector<double> predicted_response(const Excitation& e, const std::function<std::complex<double>(double)>& h);
 
 }  // namespace benchid::ident

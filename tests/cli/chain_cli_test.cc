@@ -316,4 +316,71 @@ TEST(Linearity, TwoLevelsFlagASaturationAndPassALinearPlant) {
   EXPECT_NE(bad.err.find("--levels needs"), std::string::npos) << bad.err;
 }
 
+// One period of a written signal CSV (the last), and the magnitudes of its
+// response through `plant` at each excited line, from a plain DFT.
+std::vector<double> last_period(const std::string& csv, int period) {
+  std::vector<double> x;
+  std::ifstream in(csv);
+  for (std::string line; std::getline(in, line);)
+    if (!line.empty() && line[0] != '#' && line[0] != 't') x.push_back(std::stod(line.substr(line.find(',') + 1)));
+  return std::vector<double>(x.end() - period, x.end());
+}
+cplx dft(const std::vector<double>& x, int k) {
+  cplx s = 0;
+  for (std::size_t n = 0; n < x.size(); ++n) s += x[n] * std::polar(1.0, -2 * M_PI * k * static_cast<double>(n) / static_cast<double>(x.size()));
+  return 2.0 * s / static_cast<double>(x.size());
+}
+
+// Excitation that respects the machine (issue 9): with an earlier FRF of
+// the plant, excite predicts the peak response before writing anything,
+// refuses a signal above --response-limit, and with --flat-response shapes
+// the drive so that every line of the response has the same amplitude.
+// The prediction is checked against the exact periodic response of the
+// written signal through the plant (its lines are the FRF's lines, so no
+// interpolation enters).
+TEST(ShapedExcitation, PredictsThePeakRefusesAboveTheLimitAndFlattensTheResponse) {
+  TempDir d;
+  const std::string rec = write_record(d, "rec.csv", plant, 0, 1.0);
+  ASSERT_EQ(run_benchid(d, "frf " + rec + " --input u --output y --periods 4 -q -o " + d.file("plant.csv")).code, 0);
+  const std::string base = "excite multisine --rate 1000 --resolution 1 --f0 1 --f1 120 --spacing lin --amplitude 1 "
+                           "--plant " + d.file("plant.csv");
+  const auto r = run_benchid(d, base + " -o " + d.file("sig.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  const auto at = r.err.find("predicted peak response ");
+  ASSERT_NE(at, std::string::npos) << r.err;
+  const double predicted = std::stod(r.err.substr(at + 24));
+  // the exact response of one period of the written signal
+  const std::vector<double> u = last_period(d.file("sig.csv"), kPeriod);
+  double peak = 0;
+  std::vector<cplx> yk(kLines + 1);
+  for (int k = 1; k <= kLines; ++k) yk[k] = dft(u, k) * plant(k);
+  for (int n = 0; n < kPeriod; ++n) {
+    double y = 0;
+    for (int k = 1; k <= kLines; ++k) y += std::real(yk[k] * std::polar(1.0, 2 * M_PI * k * n / kPeriod));
+    peak = std::max(peak, std::fabs(y));
+  }
+  EXPECT_NEAR(predicted, peak, 1e-5 * peak);  // printed to 6 digits
+  // a limit below the prediction: refused, nothing written, the amplitude that would pass named
+  const auto lim = run_benchid(d, base + " --response-limit " + std::to_string(peak / 2) + " -o " + d.file("sig2.csv"));
+  EXPECT_EQ(lim.code, 2);
+  EXPECT_NE(lim.err.find("exceeds --response-limit"), std::string::npos) << lim.err;
+  EXPECT_NE(lim.err.find("expected --amplitude at most 0.5"), std::string::npos) << lim.err;
+  EXPECT_FALSE(std::filesystem::exists(d.file("sig2.csv")));
+  EXPECT_FALSE(std::filesystem::exists(d.file("sig2.excite.json")));
+  // flat response: |U_k H_k| the same on every line
+  ASSERT_EQ(run_benchid(d, base + " --flat-response -q -o " + d.file("flat.csv")).code, 0);
+  const std::vector<double> uf = last_period(d.file("flat.csv"), kPeriod);
+  double lo = 1e300, hi = 0;
+  for (int k = 1; k <= kLines; ++k) {
+    const double m = std::abs(dft(uf, k) * plant(k));
+    lo = std::min(lo, m), hi = std::max(hi, m);
+  }
+  EXPECT_LT(20 * std::log10(hi / lo), 0.01);  // flat to 0.01 dB (the signal is printed to 10 digits)
+  // the FRF must cover the signal's band
+  const auto wide = run_benchid(d, "excite multisine --rate 1000 --resolution 1 --f0 1 --f1 300 --plant " + d.file("plant.csv") +
+                                       " -o " + d.file("w.csv"));
+  EXPECT_EQ(wide.code, 2);
+  EXPECT_NE(wide.err.find("expected --f0/--f1 within the measured band"), std::string::npos) << wide.err;
+}
+
 }  // namespace
