@@ -1,12 +1,12 @@
 // benchid excite KIND [options] -o FILE: make the excitation a bench will
 // play, and a sidecar JSON that tells `benchid frf --excitation` how.
-#include <cmath>
-#include <vector>
-#include <functional>
-#include <complex>
 #include <algorithm>
+#include <cmath>
+#include <complex>
+#include <functional>
 #include <iostream>
 #include <memory>
+#include <vector>
 
 #include "cli/commands.h"
 #include "cli/output.h"
@@ -153,9 +153,10 @@ std::function<std::complex<double>(double)> plant_response(const ident::Frf& f, 
   };
 }
 
-// Prints the predicted peak response and refuses one above the limit, before anything is written.
+// Prints the predicted peak response (also with -q: it is what keeps the
+// machine safe) and refuses one above the limit, before anything is written.
 void predict(const ident::Excitation& e, const ident::Frf& plant, const std::function<std::complex<double>(double)>& h,
-             double lo, double hi, const PlantOptions& p, bool quiet) {
+             double lo, double hi, const PlantOptions& p) {
   if (e.band_lo_hz < lo * (1 - 1e-9) || e.band_hi_hz > hi * (1 + 1e-9))
     throw InputError(p.plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) + " Hz but the signal " +
                      "excites " + fmt_num(e.band_lo_hz) + " to " + fmt_num(e.band_hi_hz) +
@@ -163,8 +164,7 @@ void predict(const ident::Excitation& e, const ident::Frf& plant, const std::fun
   double peak = 0;
   for (double v : ident::predicted_response(e, h)) peak = std::max(peak, std::fabs(v));
   const std::string unit = plant.output_unit.empty() ? "" : " " + plant.output_unit;
-  if (!quiet)
-    std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
+  std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
               << "' (steady state, the AC part; from " << p.plant << ")\n";
   if (p.response_limit > 0 && peak > p.response_limit)
     throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + plant.output + "' exceeds --response-limit " +
@@ -260,7 +260,7 @@ void add_excite_command(CLI::App& app) {
       }
       ident::Excitation e = ident::make_multisine(*o);
       if (pp->flat) e.description += "; shaped for a flat response at '" + plant.output + "' (" + pp->plant + ")";
-      predict(e, plant, h, lo, hi, *pp, c->quiet);
+      predict(e, plant, h, lo, hi, *pp);
       emit(e, *c, nullptr, false);
     });
   }
