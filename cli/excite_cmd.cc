@@ -297,7 +297,16 @@ void add_excite_command(CLI::App& app) {
     s->add_option("--min-settle", o->min_settle_s, "At least this settling time per step, s (default 0)");
     s->add_option("--profile", *profile, "Amplitude per frequency as F:A,F:A,... (Hz:peak), interpolated log-log; "
                   "replaces --amplitude (default: none, constant --amplitude)");
-    s->callback([o, c, spacing, profile] {
+    auto pp = std::make_shared<PlantOptions>();
+    s->add_option("--plant", pp->plant, "An earlier FRF CSV of the plant: the largest response of any step at its "
+                  "output (amplitude x |H|) is printed before anything is written (default: none)");
+    s->add_flag("--flat-response", pp->flat, "With --plant: step amplitudes proportional to 1/|H(f)|, the largest "
+                "--amplitude, so every step gives the same response (within --max-boost)");
+    s->add_option("--max-boost", pp->max_boost_db, "With --flat-response: the step amplitudes span at most this many dB "
+                  "(default 40)");
+    s->add_option("--response-limit", pp->response_limit, "With --plant: refuse a plan whose largest predicted step "
+                  "response exceeds this, in the FRF output's unit (default: no limit)");
+    s->callback([o, c, spacing, profile, pp] {
       o->spacing = ident::parse_spacing(*spacing);
       if (!profile->empty()) {
         for (const auto& item : split_list(*profile)) {
@@ -307,7 +316,55 @@ void add_excite_command(CLI::App& app) {
                                   parse_number(item.substr(colon + 1), "--profile amplitude"));
         }
       }
-      emit(ident::make_steps(*o), *c, nullptr, true);
+      if (pp->plant.empty()) {
+        if (pp->flat || pp->response_limit > 0) throw InputError("--flat-response and --response-limit need --plant FRF.csv");
+        emit(ident::make_steps(*o), *c, nullptr, true);
+        return;
+      }
+      if (!(pp->max_boost_db > 0 && pp->max_boost_db <= 120))
+        throw InputError("--max-boost " + fmt_num(pp->max_boost_db) + " dB: expected 0 to 120 dB");
+      const ident::Frf plant = ident::read_frf_csv(pp->plant);
+      double lo = 0, hi = 0;
+      const auto h = plant_response(plant, lo, hi);
+      if (!(o->f0_hz >= lo * (1 - 1e-9) && o->f1_hz <= hi * (1 + 1e-9)))
+        throw InputError(pp->plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) +
+                         " Hz but the steps run from " + fmt_num(o->f0_hz) + " to " + fmt_num(o->f1_hz) +
+                         " Hz; expected --f0/--f1 within the measured band to predict the response");
+      if (pp->flat) {
+        if (!profile->empty()) throw InputError("give --profile or --flat-response, not both");
+        // |H| at the step frequencies (as make_steps places them), then amplitude ~ 1/|H|
+        std::vector<std::pair<double, double>> prof;
+        double h_max = 0;
+        const std::size_t n = std::max<std::size_t>(o->count, 1);
+        for (std::size_t i = 0; i < n; ++i) {
+          const double t = n == 1 ? 0.0 : static_cast<double>(i) / static_cast<double>(n - 1);
+          const double f = o->spacing == ident::Spacing::log ? o->f0_hz * std::pow(o->f1_hz / o->f0_hz, t)
+                                                              : o->f0_hz + t * (o->f1_hz - o->f0_hz);
+          prof.emplace_back(f, std::abs(h(f)));
+          h_max = std::max(h_max, prof.back().second);
+        }
+        // amplitude ~ 1/|H|, with |H| floored at --max-boost below its peak; the largest step is --amplitude
+        const double floor_h = h_max * std::pow(10.0, -pp->max_boost_db / 20);
+        for (auto& pa : prof) pa.second = 1.0 / std::max(pa.second, floor_h);
+        double a_max = 0;
+        for (const auto& pa : prof) a_max = std::max(a_max, pa.second);
+        for (auto& pa : prof) pa.second *= o->amplitude / a_max;
+        o->profile = prof;
+      }
+      ident::Excitation e = ident::make_steps(*o);
+      double peak = 0, at_hz = 0;
+      for (const auto& st : e.steps) {
+        const double r = st.amplitude * std::abs(h(st.freq_hz));
+        if (r > peak) peak = r, at_hz = st.freq_hz;
+      }
+      const std::string unit = plant.output_unit.empty() ? "" : " " + plant.output_unit;
+      std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
+                << "' (the step at " << fmt_num(at_hz) << " Hz; steady state, from " << pp->plant << ")\n";
+      if (pp->response_limit > 0 && peak > pp->response_limit)
+        throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + plant.output + "' (the step at " +
+                         fmt_num(at_hz) + " Hz) exceeds --response-limit " + fmt_num(pp->response_limit) +
+                         "; expected lower step amplitudes (nothing was written)");
+      emit(e, *c, nullptr, true);
     });
   }
 }

@@ -17,6 +17,8 @@
 #include <string>
 #include <vector>
 
+#include <nlohmann/json.hpp>
+
 #include "ident/frf_csv.h"
 #include "tests/support/run_cli.h"
 #include "tests/support/signals.h"
@@ -378,6 +380,24 @@ TEST(ShapedExcitation, PredictsThePeakRefusesAboveTheLimitAndFlattensTheResponse
     lo = std::min(lo, m), hi = std::max(hi, m);
   }
   EXPECT_LT(20 * std::log10(hi / lo), 0.01);  // flat to 0.01 dB (the signal is printed to 10 digits)
+  // a stepped sine: every step's response the same (to the interpolation of
+  // H between the FRF's 1 Hz lines, 1 %), and a limit below it refused
+  const std::string steps = "excite steps --rate 1000 --f0 2 --f1 100 --count 7 --amplitude 1 --plant " + d.file("plant.csv");
+  const auto st = run_benchid(d, steps + " --flat-response --plan " + d.file("plan.json"));
+  ASSERT_EQ(st.code, 0) << st.err;
+  const auto plan = nlohmann::json::parse(slurp(d.file("plan.json")));
+  double r_lo = 1e300, r_hi = 0, a_max = 0;
+  for (const auto& step : plan["steps"]) {
+    const double resp = step["amplitude"].get<double>() * std::abs(plant(step["freq_hz"].get<double>()));
+    r_lo = std::min(r_lo, resp), r_hi = std::max(r_hi, resp);
+    a_max = std::max(a_max, step["amplitude"].get<double>());
+  }
+  EXPECT_LT(r_hi / r_lo, 1.01);
+  EXPECT_NEAR(a_max, 1.0, 1e-9);  // the largest step at --amplitude
+  const auto st_lim = run_benchid(d, steps + " --response-limit " + std::to_string(r_lo / 2) + " --plan " + d.file("p2.json"));
+  EXPECT_EQ(st_lim.code, 2);
+  EXPECT_NE(st_lim.err.find("exceeds --response-limit"), std::string::npos) << st_lim.err;
+  EXPECT_FALSE(std::filesystem::exists(d.file("p2.json")));
   // the FRF must cover the signal's band
   const auto wide = run_benchid(d, "excite multisine --rate 1000 --resolution 1 --f0 1 --f1 300 --plant " + d.file("plant.csv") +
                                        " -o " + d.file("w.csv"));
