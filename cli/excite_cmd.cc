@@ -155,8 +155,9 @@ std::function<std::complex<double>(double)> plant_response(const ident::Frf& f, 
 
 // Prints the predicted peak response (also with -q: it is what keeps the
 // machine safe) and refuses one above the limit, before anything is written.
+// note: said after the figure (what the prediction leaves out)
 void predict(const ident::Excitation& e, const ident::Frf& plant, const std::function<std::complex<double>(double)>& h,
-             double lo, double hi, const PlantOptions& p) {
+             double lo, double hi, const PlantOptions& p, const std::string& note = "") {
   if (e.band_lo_hz < lo * (1 - 1e-9) || e.band_hi_hz > hi * (1 + 1e-9))
     throw InputError(p.plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) + " Hz but the signal " +
                      "excites " + fmt_num(e.band_lo_hz) + " to " + fmt_num(e.band_hi_hz) +
@@ -165,7 +166,7 @@ void predict(const ident::Excitation& e, const ident::Frf& plant, const std::fun
   for (double v : ident::predicted_response(e, h)) peak = std::max(peak, std::fabs(v));
   const std::string unit = plant.output_unit.empty() ? "" : " " + plant.output_unit;
   std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
-              << "' (steady state, the AC part; from " << p.plant << ")\n";
+              << "' (steady state, the AC part; from " << p.plant << ")" << note << "\n";
   if (p.response_limit > 0 && peak > p.response_limit)
     throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + plant.output + "' exceeds --response-limit " +
                      fmt_num(p.response_limit) + "; expected --amplitude at most " +
@@ -275,7 +276,25 @@ void add_excite_command(CLI::App& app) {
     s->add_option("--order", o->order, "Register length n: the sequence has 2^n - 1 bits (2..24, default 12)");
     s->add_option("--divider", o->divider, "Samples per bit: clock = rate/divider places the band (default 1)");
     s->add_option("--repeat", o->repeats, "Periods written (default 4)");
-    s->callback([o, c] { emit(ident::make_prbs(*o), *c, nullptr, false); });
+    auto pp = std::make_shared<PlantOptions>();
+    s->add_option("--plant", pp->plant, "An earlier FRF CSV of the plant: the peak response it predicts over the "
+                  "sequence's lines is printed before anything is written (default: none)");
+    s->add_option("--response-limit", pp->response_limit, "With --plant: refuse a sequence whose predicted peak "
+                  "response exceeds this, in the FRF output's unit (default: no limit)");
+    s->callback([o, c, pp] {
+      const ident::Excitation e = ident::make_prbs(*o);
+      if (!pp->plant.empty()) {
+        const ident::Frf plant = ident::read_frf_csv(pp->plant);
+        double lo = 0, hi = 0;
+        const auto h = plant_response(plant, lo, hi);
+        predict(e, plant, h, lo, hi, *pp,
+                "; the lines above the useful band, 3 dB down and falling, are left out: an underestimate where the "
+                "plant passes them");
+      } else if (pp->response_limit > 0) {
+        throw InputError("--response-limit needs --plant FRF.csv");
+      }
+      emit(e, *c, nullptr, false);
+    });
   }
 
   {

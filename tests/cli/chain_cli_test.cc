@@ -398,6 +398,13 @@ TEST(ShapedExcitation, PredictsThePeakRefusesAboveTheLimitAndFlattensTheResponse
   EXPECT_EQ(st_lim.code, 2);
   EXPECT_NE(st_lim.err.find("exceeds --response-limit"), std::string::npos) << st_lim.err;
   EXPECT_FALSE(std::filesystem::exists(d.file("p2.json")));
+  // PRBS: predicted over its useful band, said to leave out the lines above; refused above a limit
+  const auto pr = run_benchid(d, "excite prbs --rate 1000 --order 6 --divider 4 --plant " + d.file("plant.csv") +
+                                     " --response-limit 1e-6 -o " + d.file("pr.csv"));
+  EXPECT_EQ(pr.code, 2);
+  EXPECT_NE(pr.err.find("are left out: an underestimate"), std::string::npos) << pr.err;
+  EXPECT_NE(pr.err.find("exceeds --response-limit"), std::string::npos) << pr.err;
+  EXPECT_FALSE(std::filesystem::exists(d.file("pr.csv")));
   // the FRF must cover the signal's band
   const auto wide = run_benchid(d, "excite multisine --rate 1000 --resolution 1 --f0 1 --f1 300 --plant " + d.file("plant.csv") +
                                        " -o " + d.file("w.csv"));
