@@ -200,7 +200,41 @@ void add_excite_command(CLI::App& app) {
     s->add_option("--phase", o->phase_deg, "Phase of the cosine at t = 0, deg (default -90: starts at zero as a sine)");
     s->add_option("--repeat", o->repeats, "Sweeps back to back; 2 or more make the record periodic so the sweeps "
                   "can be averaged with an error bar (default 1)");
-    s->callback([o, c] { emit(ident::make_sweep(*o), *c, o.get(), false); });
+    auto pp = std::make_shared<PlantOptions>();
+    s->add_option("--plant", pp->plant, "An earlier FRF CSV of the plant: the peak response, amplitude x the largest "
+                  "|H| over the sweep (quasi-steady: a slow sweep), is printed before anything is written (default: none)");
+    s->add_option("--response-limit", pp->response_limit, "With --plant: refuse a sweep whose predicted peak response "
+                  "exceeds this, in the FRF output's unit (default: no limit)");
+    s->callback([o, c, pp] {
+      if (!pp->plant.empty()) {
+        // a slow sweep passes each frequency in steady state: the response's envelope is A |H(f(t))|
+        const ident::Frf plant = ident::read_frf_csv(pp->plant);
+        double lo = 0, hi = 0;
+        const auto h = plant_response(plant, lo, hi);
+        const double f_lo = std::min(o->f0_hz, o->f1_hz), f_hi = std::max(o->f0_hz, o->f1_hz);
+        if (!(f_lo >= lo * (1 - 1e-9) && f_hi <= hi * (1 + 1e-9)))
+          throw InputError(pp->plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) +
+                           " Hz but the sweep runs from " + fmt_num(f_lo) + " to " + fmt_num(f_hi) +
+                           " Hz; expected --f0/--f1 within the measured band to predict the response");
+        double peak = 0, at_hz = 0;
+        for (int i = 0; i <= 2000; ++i) {
+          const double f = f_lo * std::pow(f_hi / f_lo, i / 2000.0);
+          const double r = o->amplitude * std::abs(h(f));
+          if (r > peak) peak = r, at_hz = f;
+        }
+        const std::string unit = plant.output_unit.empty() ? "" : " " + plant.output_unit;
+        std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
+                  << "' (near " << fmt_num(at_hz) << " Hz; quasi-steady, a slow sweep: a fast one through a sharp "
+                  << "resonance rings less; from " << pp->plant << ")\n";
+        if (pp->response_limit > 0 && peak > pp->response_limit)
+          throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + plant.output + "' exceeds "
+                           "--response-limit " + fmt_num(pp->response_limit) + "; expected --amplitude at most " +
+                           fmt_num(o->amplitude * pp->response_limit / peak) + " (nothing was written)");
+      } else if (pp->response_limit > 0) {
+        throw InputError("--response-limit needs --plant FRF.csv");
+      }
+      emit(ident::make_sweep(*o), *c, o.get(), false);
+    });
   }
 
   {

@@ -405,6 +405,15 @@ TEST(ShapedExcitation, PredictsThePeakRefusesAboveTheLimitAndFlattensTheResponse
   EXPECT_NE(pr.err.find("are left out: an underestimate"), std::string::npos) << pr.err;
   EXPECT_NE(pr.err.find("exceeds --response-limit"), std::string::npos) << pr.err;
   EXPECT_FALSE(std::filesystem::exists(d.file("pr.csv")));
+  // a slow sweep: amplitude x the largest |H| over the sweep (quasi-steady), to 1 % (interpolation)
+  const auto ch = run_benchid(d, "excite chirp -q --rate 1000 --f0 2 --f1 100 --duration 20 --amplitude 0.5 --plant " +
+                                     d.file("plant.csv") + " -o " + d.file("ch.csv"));
+  ASSERT_EQ(ch.code, 0) << ch.err;
+  double h_max = 0;
+  for (double f = 2; f <= 100; f += 0.01) h_max = std::max(h_max, std::abs(plant(f)));
+  const auto at_ch = ch.err.find("predicted peak response ");
+  ASSERT_NE(at_ch, std::string::npos) << ch.err;
+  EXPECT_NEAR(std::stod(ch.err.substr(at_ch + 24)), 0.5 * h_max, 0.01 * 0.5 * h_max);
   // the FRF must cover the signal's band
   const auto wide = run_benchid(d, "excite multisine --rate 1000 --resolution 1 --f0 1 --f1 300 --plant " + d.file("plant.csv") +
                                        " -o " + d.file("w.csv"));
