@@ -109,7 +109,7 @@ void add_compare_command(CLI::App& app) {
   c->add_option("--tolerance-deg", a->opts.tolerance_deg, "Allowed beyond the band, deg (default 10)");
   c->add_option("--sigmas", a->opts.sigmas, "Times the FRF's own random error also allowed (default 3)");
   c->add_option("--show", a->show, "Lines outside listed in the table (default 20; all are in -o)");
-  c->add_option("-o,--out", a->out, "CSV of every line compared: the FRF, the band, the excess and outside (0/1)");
+  c->add_option("-o,--out", a->out, "CSV of every line compared: the FRF, the band, the excess and outside (0/1) (default: none)");
   add_force_flag(c);
   c->add_flag("--strict", a->strict, "Exit status 3 when a line is outside the band");
   c->callback([a] { run_compare(*a); });

@@ -153,24 +153,50 @@ std::function<std::complex<double>(double)> plant_response(const ident::Frf& f, 
   };
 }
 
-// Prints the predicted peak response (also with -q: it is what keeps the
-// machine safe) and refuses one above the limit, before anything is written.
+// The plant of --plant, read once: its response between the reliable lines
+// and what the prediction may claim from it.
+struct Plant {
+  const PlantOptions& opt;
+  ident::Frf frf;
+  std::function<std::complex<double>(double)> h;
+  double lo = 0, hi = 0;  // span of the reliable lines, Hz
+
+  explicit Plant(const PlantOptions& p) : opt(p), frf(ident::read_frf_csv(p.plant)) {
+    if (!(p.max_boost_db > 0 && p.max_boost_db <= 120))
+      throw InputError("--max-boost " + fmt_num(p.max_boost_db) + " dB: expected 0 to 120 dB");
+    h = plant_response(frf, lo, hi);
+  }
+  // Refuses a band beyond the reliable lines; `runs` says what spans it ("the sweep runs from").
+  void cover(double f_lo, double f_hi, const std::string& runs) const {
+    if (f_lo < lo * (1 - 1e-9) || f_hi > hi * (1 + 1e-9))
+      throw InputError(opt.plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) + " Hz but " + runs +
+                       " " + fmt_num(f_lo) + " to " + fmt_num(f_hi) +
+                       " Hz; expected --f0/--f1 within the measured band to predict the response");
+  }
+  // Prints the predicted peak response (also with -q: it is what keeps the
+  // machine safe) and refuses one above --response-limit, before anything is
+  // written. detail: in the printed brackets; at: after the output's name in
+  // the refusal; advice: what would pass.
+  void judge(double peak, const std::string& detail, const std::string& at, const std::string& advice) const {
+    const std::string unit = frf.output_unit.empty() ? "" : " " + frf.output_unit;
+    std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << frf.output << "' ("
+              << detail << "\n";
+    if (opt.response_limit > 0 && peak > opt.response_limit)
+      throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + frf.output + "'" + at +
+                       " exceeds --response-limit " + fmt_num(opt.response_limit) + "; expected " + advice +
+                       " (nothing was written)");
+  }
+  double advice_amplitude(double amplitude, double peak) const { return amplitude * opt.response_limit / peak; }
+};
+
+// A periodic excitation with known lines: its exact steady-state peak.
 // note: said after the figure (what the prediction leaves out)
-void predict(const ident::Excitation& e, const ident::Frf& plant, const std::function<std::complex<double>(double)>& h,
-             double lo, double hi, const PlantOptions& p, const std::string& note = "") {
-  if (e.band_lo_hz < lo * (1 - 1e-9) || e.band_hi_hz > hi * (1 + 1e-9))
-    throw InputError(p.plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) + " Hz but the signal " +
-                     "excites " + fmt_num(e.band_lo_hz) + " to " + fmt_num(e.band_hi_hz) +
-                     " Hz; expected --f0/--f1 within the measured band to predict the response");
+void predict(const ident::Excitation& e, const Plant& plant, const std::string& note = "") {
+  plant.cover(e.band_lo_hz, e.band_hi_hz, "the signal excites");
   double peak = 0;
-  for (double v : ident::predicted_response(e, h)) peak = std::max(peak, std::fabs(v));
-  const std::string unit = plant.output_unit.empty() ? "" : " " + plant.output_unit;
-  std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
-              << "' (steady state, the AC part; from " << p.plant << ")" << note << "\n";
-  if (p.response_limit > 0 && peak > p.response_limit)
-    throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + plant.output + "' exceeds --response-limit " +
-                     fmt_num(p.response_limit) + "; expected --amplitude at most " +
-                     fmt_num(e.amplitude * p.response_limit / peak) + " (nothing was written)");
+  for (double v : ident::predicted_response(e, plant.h)) peak = std::max(peak, std::fabs(v));
+  plant.judge(peak, "steady state, the AC part; from " + plant.opt.plant + ")" + note, "",
+              "--amplitude at most " + fmt_num(plant.advice_amplitude(e.amplitude, peak)));
 }
 
 }  // namespace
@@ -208,28 +234,19 @@ void add_excite_command(CLI::App& app) {
     s->callback([o, c, pp] {
       if (!pp->plant.empty()) {
         // a slow sweep passes each frequency in steady state: the response's envelope is A |H(f(t))|
-        const ident::Frf plant = ident::read_frf_csv(pp->plant);
-        double lo = 0, hi = 0;
-        const auto h = plant_response(plant, lo, hi);
+        const Plant plant(*pp);
         const double f_lo = std::min(o->f0_hz, o->f1_hz), f_hi = std::max(o->f0_hz, o->f1_hz);
-        if (!(f_lo >= lo * (1 - 1e-9) && f_hi <= hi * (1 + 1e-9)))
-          throw InputError(pp->plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) +
-                           " Hz but the sweep runs from " + fmt_num(f_lo) + " to " + fmt_num(f_hi) +
-                           " Hz; expected --f0/--f1 within the measured band to predict the response");
+        plant.cover(f_lo, f_hi, "the sweep runs from");
         double peak = 0, at_hz = 0;
         for (int i = 0; i <= 2000; ++i) {
           const double f = f_lo * std::pow(f_hi / f_lo, i / 2000.0);
-          const double r = o->amplitude * std::abs(h(f));
+          const double r = o->amplitude * std::abs(plant.h(f));
           if (r > peak) peak = r, at_hz = f;
         }
-        const std::string unit = plant.output_unit.empty() ? "" : " " + plant.output_unit;
-        std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
-                  << "' (near " << fmt_num(at_hz) << " Hz; quasi-steady, a slow sweep: a fast one through a sharp "
-                  << "resonance rings less; from " << pp->plant << ")\n";
-        if (pp->response_limit > 0 && peak > pp->response_limit)
-          throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + plant.output + "' exceeds "
-                           "--response-limit " + fmt_num(pp->response_limit) + "; expected --amplitude at most " +
-                           fmt_num(o->amplitude * pp->response_limit / peak) + " (nothing was written)");
+        plant.judge(peak,
+                    "near " + fmt_num(at_hz) + " Hz; quasi-steady, a slow sweep: a fast one through a sharp resonance "
+                    "rings less; from " + pp->plant + ")",
+                    "", "--amplitude at most " + fmt_num(plant.advice_amplitude(o->amplitude, peak)));
       } else if (pp->response_limit > 0) {
         throw InputError("--response-limit needs --plant FRF.csv");
       }
@@ -277,11 +294,8 @@ void add_excite_command(CLI::App& app) {
         emit(ident::make_multisine(*o), *c, nullptr, false);
         return;
       }
-      if (!(pp->max_boost_db > 0 && pp->max_boost_db <= 120))
-        throw InputError("--max-boost " + fmt_num(pp->max_boost_db) + " dB: expected 0 to 120 dB");
-      const ident::Frf plant = ident::read_frf_csv(pp->plant);
-      double lo = 0, hi = 0;
-      const auto h = plant_response(plant, lo, hi);
+      const Plant pl(*pp);
+      const ident::Frf& plant = pl.frf;
       if (pp->flat) {
         o->profile.clear();
         double a_min = 1e300;
@@ -295,7 +309,7 @@ void add_excite_command(CLI::App& app) {
       }
       ident::Excitation e = ident::make_multisine(*o);
       if (pp->flat) e.description += "; shaped for a flat response at '" + plant.output + "' (" + pp->plant + ")";
-      predict(e, plant, h, lo, hi, *pp);
+      predict(e, pl);
       emit(e, *c, nullptr, false);
     });
   }
@@ -318,10 +332,7 @@ void add_excite_command(CLI::App& app) {
     s->callback([o, c, pp] {
       const ident::Excitation e = ident::make_prbs(*o);
       if (!pp->plant.empty()) {
-        const ident::Frf plant = ident::read_frf_csv(pp->plant);
-        double lo = 0, hi = 0;
-        const auto h = plant_response(plant, lo, hi);
-        predict(e, plant, h, lo, hi, *pp,
+        predict(e, Plant(*pp),
                 "; the lines above the useful band, 3 dB down and falling, are left out: an underestimate where the "
                 "plant passes them");
       } else if (pp->response_limit > 0) {
@@ -374,15 +385,9 @@ void add_excite_command(CLI::App& app) {
         emit(ident::make_steps(*o), *c, nullptr, true);
         return;
       }
-      if (!(pp->max_boost_db > 0 && pp->max_boost_db <= 120))
-        throw InputError("--max-boost " + fmt_num(pp->max_boost_db) + " dB: expected 0 to 120 dB");
-      const ident::Frf plant = ident::read_frf_csv(pp->plant);
-      double lo = 0, hi = 0;
-      const auto h = plant_response(plant, lo, hi);
-      if (!(o->f0_hz >= lo * (1 - 1e-9) && o->f1_hz <= hi * (1 + 1e-9)))
-        throw InputError(pp->plant + ": its reliable lines span " + fmt_num(lo) + " to " + fmt_num(hi) +
-                         " Hz but the steps run from " + fmt_num(o->f0_hz) + " to " + fmt_num(o->f1_hz) +
-                         " Hz; expected --f0/--f1 within the measured band to predict the response");
+      const Plant plant(*pp);
+      const auto& h = plant.h;
+      plant.cover(std::min(o->f0_hz, o->f1_hz), std::max(o->f0_hz, o->f1_hz), "the steps run from");
       if (pp->flat) {
         if (!profile->empty()) throw InputError("give --profile or --flat-response, not both");
         // |H| at the step frequencies (as make_steps places them), then amplitude ~ 1/|H|
@@ -410,13 +415,8 @@ void add_excite_command(CLI::App& app) {
         const double r = st.amplitude * std::abs(h(st.freq_hz));
         if (r > peak) peak = r, at_hz = st.freq_hz;
       }
-      const std::string unit = plant.output_unit.empty() ? "" : " " + plant.output_unit;
-      std::cerr << "benchid excite: predicted peak response " << fmt_num(peak) << unit << " at '" << plant.output
-                << "' (the step at " << fmt_num(at_hz) << " Hz; steady state, from " << pp->plant << ")\n";
-      if (pp->response_limit > 0 && peak > pp->response_limit)
-        throw InputError("predicted peak response " + fmt_num(peak) + unit + " at '" + plant.output + "' (the step at " +
-                         fmt_num(at_hz) + " Hz) exceeds --response-limit " + fmt_num(pp->response_limit) +
-                         "; expected lower step amplitudes (nothing was written)");
+      plant.judge(peak, "the step at " + fmt_num(at_hz) + " Hz; steady state, from " + pp->plant + ")",
+                  " (the step at " + fmt_num(at_hz) + " Hz)", "lower step amplitudes");
       emit(e, *c, nullptr, true);
     });
   }

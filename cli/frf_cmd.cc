@@ -81,15 +81,13 @@ ident::Frf two_level_frf(const FrfArgs& a, const ident::Excitation& e, const ide
   co.tolerance_deg = 1.0;
   const ident::CompareResult r = ident::compare_frf(top, {&other}, {"level " + fmt_num(l_other)}, co);
   std::string where_hz;
-  double worst = 0, worst_hz = 0;
+  double worst = 0, worst_hz = 0, last_hz = 0;
   for (const auto& c : r.lines)
     if (c.outside) {
       if (where_hz.empty()) where_hz = fmt_num(c.freq_hz);
+      last_hz = c.freq_hz;
       if (c.excess_db > worst) worst = c.excess_db, worst_hz = c.freq_hz;
     }
-  double last_hz = 0;
-  for (const auto& c : r.lines)
-    if (c.outside) last_hz = c.freq_hz;
   top.corrections.erase(std::remove_if(top.corrections.begin(), top.corrections.end(),
                                        [](const std::string& c) { return c.rfind("samples ", 0) == 0; }),
                         top.corrections.end());
@@ -333,11 +331,11 @@ void add_frf_options(CLI::App* c, FrfArgs& a, bool pipeline) {
                 "part only, and 'replay --split F' validates the fitted model on the rest (default 0)");
   c->add_option("--lag", a.lags, "CH:SECONDS: the channel's samples are late by SECONDS (fractional samples and "
                 "negative values allowed; repeatable); corrected as a linear phase on the spectra. Converter latency "
-                "and channel skew: one sample at 8 kHz is 4.5 deg at 100 Hz");
+                "and channel skew: one sample at 8 kHz is 4.5 deg at 100 Hz (default: no shift)");
   c->add_option("--invert", a.inverts, "CH: the channel's polarity is flipped (a sensor mounted the other way round; "
-                "repeatable)");
+                "repeatable; default: none)");
   c->add_option("--calibrate", a.calibrate, "Loopback FRF CSV of the measuring chain alone, measured with the same "
-                "settings: the FRF is divided by it line by line and the errors of both combined");
+                "settings: the FRF is divided by it line by line and the errors of both combined (default: none)");
   c->add_option("--from", a.from_s, "Leave out the samples before this time, s from the first sample (default 0)");
   c->add_option("--to", a.to_s, "Leave out the samples from this time on, s from the first sample (default: the end)");
   c->add_flag("--loop-gain", a.loop_gain, "Injection measurement: --reference is the injected signal, --input the "
