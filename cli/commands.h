@@ -18,5 +18,6 @@ void add_demo_command(CLI::App& app);
 void add_batch_command(CLI::App& app);
 void add_stitch_command(CLI::App& app);
 void add_compare_command(CLI::App& app);
+void add_tune_command(CLI::App& app);
 
 }  // namespace benchid::cli

@@ -31,6 +31,7 @@ int main(int argc, char** argv) {
   benchid::cli::add_batch_command(app);
   benchid::cli::add_stitch_command(app);
   benchid::cli::add_compare_command(app);
+  benchid::cli::add_tune_command(app);
   benchid::cli::install_stop_handlers();
   try {
     app.parse(argc, argv);

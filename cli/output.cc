@@ -52,6 +52,7 @@ const char* kind_name(OutputKind k) {
     case OutputKind::html_report: return "HTML report";
     case OutputKind::batch_results: return "batch results file";
     case OutputKind::compare_csv: return "comparison CSV";
+    case OutputKind::controller_json: return "controller JSON";
   }
   return "output";
 }
@@ -88,6 +89,7 @@ bool is_our_output(const std::string& path, OutputKind kind) {
       return starts_with(head, "<!DOCTYPE html>") && head.find("<title>benchid report:") != std::string::npos;
     case OutputKind::batch_results: return starts_with(head, "{\"unit\":");
     case OutputKind::compare_csv: return starts_with(head, "# benchid compare");
+    case OutputKind::controller_json: return is_our_json(path, "benchid.controller/1");
   }
   return false;
 }

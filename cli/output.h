@@ -29,6 +29,7 @@ enum class OutputKind {
   html_report,    // <title>benchid report: (report -o)
   batch_results,  // JSON lines starting {"unit": (batch -o)
   compare_csv,    // "# benchid compare" (compare -o)
+  controller_json,  // {"format": "benchid.controller/1"} (tune -o)
 };
 // The overwrite rule for every output file: an output may replace an
 // existing file only when that file is empty or is benchid's own earlier
