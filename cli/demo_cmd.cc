@@ -20,7 +20,7 @@ namespace fs = std::filesystem;
 const std::vector<DemoScenario>& demo_scenarios() {
   static const std::vector<DemoScenario> s{
       {"belt_axis", "Belt-driven positioning axis, random noise (invented demo)", "belt_axis/belt_axis_log.csv",
-       "drive_v", "speed_rads", "", "", "auto", "auto", "", "pid:kp=0.025,ki=0.8", "belt_axis/belt_axis.truth.json"},
+       "drive_v", "speed_rads", "", "", "auto", "auto", "", "pid:kp=0.025,ki=0.8", "belt_axis/belt_axis.truth.json", "pid"},
       {"voice_coil", "Voice-coil actuator, repeated log sweep through an audio interface (invented demo)",
        "voice_coil/voice_coil_sweep.wav", "1", "2", "", "voice_coil/voice_coil_sweep.plan.json", "5", "auto", "",
        "pid:kp=15,ki=1500,kd=0.04,tf=0.00015", "voice_coil/voice_coil.truth.json"},
@@ -49,11 +49,13 @@ ReportArgs demo_args(const DemoScenario& s, const std::string& data_dir) {
   if (s.fit_delay != "auto") cmd += " --delay " + s.fit_delay;
   if (!s.fit_band.empty()) cmd += " --band " + s.fit_band;
   if (!s.controller.empty()) cmd += " --controller " + s.controller;
+  if (!s.tune.empty()) cmd += " --tune " + s.tune;
   a.frf.command_line = cmd + " -o " + s.name + ".html   (run by benchid demo)";
   a.fit.order = s.fit_order;
   a.fit.delay = s.fit_delay;
   a.fit.band = s.fit_band;
   a.loop.controller = s.controller;
+  a.tune = s.tune;
   a.title = s.title;
   return a;
 }

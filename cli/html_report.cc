@@ -587,6 +587,46 @@ std::string html_report(const ReportData& d) {
     o << "<p>" << esc(kLoopCaution) << "</p>\n";
   }
 
+  // ---- proposed tuning (report --tune) ----
+  if (d.tune || !d.tune_note.empty()) {
+    o << "<h2>Proposed tuning</h2>\n";
+    if (!d.tune) {
+      o << "<p class=\"fail\">No proposal: " << esc(d.tune_note) << "</p>\n";
+    } else {
+      const loop::TuneResult& r = d.tune->r;
+      const LoopAnalysis& a = *d.tuned;
+      o << "<p>" << esc(r.method) << ". Proposal: <code>" << esc(r.spec) << "</code>";
+      for (const std::string& n : r.notes) o << "; " << esc(n);
+      o << ".</p>\n";
+      const LoopAnalysis* b = d.loop;
+      const auto cell = [](double v, const char* f) { return std::isfinite(v) ? fmt(f, v) : std::string("none"); };
+      o << "<table><tr><th>figure</th><th>before" << (b ? " (<code>" + esc(b->controller) + "</code>)" : std::string(" (no controller given)"))
+        << "</th><th>after (proposal)</th></tr>\n";
+      const auto both = [&](const std::string& name, double vb, double va, const char* f) {
+        o << row({name, b ? cell(vb, f) : std::string("&ndash;"), cell(va, f)});
+      };
+      both("phase margin (deg)", b ? b->m.phase_margin_deg : NAN, a.m.phase_margin_deg, "%.2f");
+      both("gain crossover (Hz)", b ? b->m.crossover_hz : NAN, a.m.crossover_hz, "%.4g");
+      both("gain margin (dB)", b ? b->m.gain_margin_db : NAN, a.m.gain_margin_db, "%.2f");
+      both("delay margin (ms)", b ? b->m.delay_margin_s * 1e3 : NAN, a.m.delay_margin_s * 1e3, "%.4g");
+      both("peak sensitivity Ms (dB)", b ? 20 * std::log10(b->m.ms) : NAN, 20 * std::log10(a.m.ms), "%.2f");
+      both("closed-loop bandwidth (Hz)", b ? b->m.bandwidth_hz : NAN, a.m.bandwidth_hz, "%.4g");
+      if (a.step)
+        both("step overshoot (%)", b && b->step ? b->step->overshoot_pct : NAN, a.step->overshoot_pct, "%.3g");
+      const auto verdict = [](const LoopAnalysis* x) {
+        return x ? std::string(x->pass ? "<span class=\"pass\">pass</span>" : "<span class=\"fail\">FAIL</span>") : std::string("&ndash;");
+      };
+      o << row({"verdict", verdict(b), verdict(&a)}, false);
+      o << "</table>\n";
+      if (!a.outside_band.empty()) {
+        o << "<p>Outside the fitted band:";
+        for (const auto& w : a.outside_band) o << " " << esc(w) << ";";
+        o << " the model is not evidence there.</p>\n";
+      }
+      o << "<p><strong>Caution:</strong> " << esc(kTuneCaution) << "</p>\n";
+    }
+  }
+
   // ---- limits ----
   o << "<h2>Limits of validity</h2>\n<ul>\n";
   o << "<li>The model was fitted between " << fmt("%.4g", ft.data.freq_hz.front()) << " and "

@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "cli/stages.h"
+#include "cli/tune_stage.h"
 #include "fit/fit_frf.h"
 #include "fit/replay.h"
 #include "ident/frf.h"
@@ -26,6 +27,10 @@ struct ReportData {
   double rate_hz = 0;
   const LoopAnalysis* loop = nullptr;      // loop on the fitted model (optional)
   const LoopAnalysis* loop_frf = nullptr;  // the same loop on the measured FRF (optional)
+  // report --tune: the proposal and its loop on the model (after); d.loop is before
+  const TuneOutcome* tune = nullptr;
+  const LoopAnalysis* tuned = nullptr;
+  std::string tune_note;                   // why there is no proposal (when asked for)
   std::vector<std::pair<std::string, std::string>> files;  // written beside the report: path, what it holds
   std::vector<std::pair<std::string, std::string>> settings;  // stage settings: name, value
 };

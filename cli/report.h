@@ -5,6 +5,7 @@
 
 #include "cli/parse.h"
 #include "cli/stages.h"
+#include "cli/tune_stage.h"
 #include "ident/frf.h"
 
 namespace benchid::cli {
@@ -13,6 +14,8 @@ struct ReportArgs {
   FrfArgs frf;     // the recording and how to estimate its FRF
   FitArgs fit;     // --band here is the fit's band
   LoopArgs loop;   // no controller: no loop section
+  std::string tune;  // --tune STRUCTURE: propose gains on the fitted model (empty: none)
+  TuneArgs tune_args;
   std::string keep_dir, title;
 };
 
@@ -53,6 +56,7 @@ struct DemoScenario {
   std::string fit_order = "auto", fit_delay = "auto", fit_band;  // fit settings
   std::string controller;                                     // loop section
   std::string truth;                                          // the stated truth (model JSON)
+  std::string tune = "";                                      // report --tune STRUCTURE (empty: none)
 };
 const std::vector<DemoScenario>& demo_scenarios();
 // The folder the build was made from (datasets_demo/ of the source tree).

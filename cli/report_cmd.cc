@@ -128,6 +128,12 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
       loop::parse_controller(loop_args.controller);
       return 0;
     });
+  if (!a.tune.empty())
+    stage("tune", [&] {
+      TuneArgs ta = a.tune_args;
+      ta.structure = a.tune;
+      return tune_options(ta).pm_min_deg;
+    });
   // frf
   const ident::Frf frf = stage("frf", [&] { return compute_frf(a.frf); });
   lap(times.frf_s);
@@ -163,9 +169,33 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
       frf_loop_note = e.what();
     }
   }
+  // tune: a proposal on the fitted model, with the report's thresholds as targets
+  std::optional<TuneOutcome> tuned;
+  std::optional<LoopAnalysis> after;
+  std::string tune_note;
+  if (!a.tune.empty()) {
+    TuneArgs ta = a.tune_args;
+    ta.structure = a.tune;
+    ta.pm_min = a.loop.pm_min;
+    ta.gm_min = a.loop.gm_min;
+    ta.ms_max_db = a.loop.ms_max_db;
+    try {
+      tuned = stage("tune", [&] {
+        return tune_plant(ta, paths.model, &ft.result.model, nullptr, summary.band_lo_hz, summary.band_hi_hz);
+      });
+      LoopArgs la = loop_args;
+      la.controller = tuned->r.spec;
+      after = analyse_loop(la, paths.model, &ft.result.model, nullptr, summary.band_lo_hz, summary.band_hi_hz);
+    } catch (const NoResult& e) {  // no proposal is a finding of the report, not a failure of it
+      tune_note = e.what();
+    }
+  }
   lap(times.loop_s);
 
   ReportData d;
+  d.tune = tuned ? &*tuned : nullptr;
+  d.tuned = after ? &*after : nullptr;
+  d.tune_note = tune_note;
   d.record = a.frf.record;
   d.title = a.title;
   d.command_line = a.frf.command_line;
@@ -213,6 +243,10 @@ void add_report_options(CLI::App* c, ReportArgs& a) {
   add_frf_options(c, a.frf, true);
   add_fit_options(c, a.fit, true);
   add_loop_options(c, a.loop, true);
+  c->add_option("--tune", a.tune, "Propose controller gains on the fitted model: pi, pid or pi+lead, with the "
+                "thresholds of --pm-min, --gm-min and --ms-max as targets; the report shows the loop before "
+                "(--controller) and after (default: none)");
+  add_tune_options(c, a.tune_args, true);
   c->add_option("--keep", a.keep_dir, "Folder for the FRF CSV, model JSON and loop JSON (default: beside the report, "
                 "named after it)");
   c->add_option("--title", a.title, "Heading of the report (default: the recording's path)");
