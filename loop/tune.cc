@@ -21,7 +21,7 @@ using fit::cplx;
 constexpr double kPi = std::numbers::pi;
 constexpr double kTwoPi = 2 * std::numbers::pi;
 constexpr double kDeg = 180 / std::numbers::pi;
-constexpr double kAlphaMin = 0.05, kAlphaMax = 40;  // the range of fc over the integral corner searched
+constexpr double kAlphaMin = 0.005, kAlphaMax = 40;  // the range of fc over the integral corner searched
 
 std::string num(double v) {
   char b[40];
@@ -250,7 +250,7 @@ std::vector<Shape> shapes(const TuneOptions& o) {
   // integral action at least as strong as the stated ratio (alpha <= ratio),
   // else the highest crossover would come with no integral action at all
   const double top = o.objective == TuneObjective::crossover ? o.integral_ratio : kAlphaMax;
-  for (double x : linspace(std::log(kAlphaMin), std::log(top), o.objective == TuneObjective::crossover ? 10 : 16))
+  for (double x : linspace(std::log(kAlphaMin), std::log(top), o.objective == TuneObjective::crossover ? 12 : 20))
     alphas.push_back(std::exp(x));
   std::vector<Shape> out;
   for (double a : alphas) {
