@@ -590,8 +590,9 @@ TuneResult tune_model(const fit::RationalModel& plant, const TuneOptions& o) {
   if (plant.domain != fit::Domain::s)
     throw InputError("tune takes an s-domain model (or a measured FRF); this model is in z");
   Controller unity = parse_controller("gain:k=1");
-  auto [lo, hi] = loop_range(plant, unity);
-  lo /= 10, hi *= 10;
+  // Plain variables, not a structured binding: lambdas below capture them (C++17).
+  const std::pair<double, double> range = loop_range(plant, unity);
+  double lo = range.first / 10, hi = range.second * 10;
   if (o.dt_s > 0) hi = std::min(hi, 0.4999 / o.dt_s);
   if (o.dt_s > 0 && o.min_crossover_hz >= hi)
     throw InputError("minimum crossover " + num(o.min_crossover_hz) + " Hz is at or above the Nyquist frequency of dt = " +

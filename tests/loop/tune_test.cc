@@ -226,7 +226,9 @@ void property(int family) {
                                  structure_name(s) + ": " + r.spec;
         EXPECT_GE(j.pm_deg, o.pm_min_deg) << what;
         EXPECT_GE(j.gm_db, o.gm_min_db) << what;
-        if (std::isfinite(j.lower_gm_db)) EXPECT_GE(j.lower_gm_db, o.gm_min_db) << what;
+        if (std::isfinite(j.lower_gm_db)) {
+          EXPECT_GE(j.lower_gm_db, o.gm_min_db) << what;
+        }
         EXPECT_LE(j.ms_db, o.ms_max_db) << what;
         EXPECT_TRUE(j.stable) << what;
       }
