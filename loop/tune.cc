@@ -136,6 +136,7 @@ class Engine {
     cplx prev_l{};
     for (std::size_t k = 0; k < f_.size(); ++k) {
       const cplx l = c.kp * unit_controller(sh, wc, s_[k]) * g_[k];
+      l_[k] = l;
       const double al = std::abs(l), u = unc_[k];
       const double dist = std::abs(1.0 + l) - u * al;
       const double sens = dist > 1e-12 ? 1 / dist : 1e12;
@@ -186,13 +187,9 @@ class Engine {
     failed = !in_band || !top_ok || ms > ms_lim || pm < pm_lim || gm < gm_lim || !std::isfinite(pm) || fc_hz < o_.min_crossover_hz;
     if (!failed || full) {
       // Nyquist: Z = P - (2 D - K pi)/(2 pi), D the change of arg(1 + L) over the grid (stability.h)
+      // (the first pass has been through every point: L is in l_)
       double arg_change = 0;
-      cplx prev = 1.0 + c.kp * unit_controller(sh, wc, s_[0]) * g_[0];
-      for (std::size_t k = 1; k < f_.size(); ++k) {
-        const cplx rd = 1.0 + c.kp * unit_controller(sh, wc, s_[k]) * g_[k];
-        arg_change += std::arg(rd / prev);
-        prev = rd;
-      }
+      for (std::size_t k = 1; k < f_.size(); ++k) arg_change += std::arg((1.0 + l_[k]) / (1.0 + l_[k - 1]));
       const int z = open_unstable_ - static_cast<int>(std::lround((2 * arg_change - integrators_ * kPi) / kTwoPi));
       c.fig.stable = z == 0;
     }
@@ -212,6 +209,7 @@ class Engine {
     s_.resize(f_.size());
     g_.resize(f_.size());
     unc_.resize(f_.size());
+    l_.resize(f_.size());
     for (std::size_t k = 0; k < f_.size(); ++k) {
       s_[k] = s_of(f_[k]);
       g_[k] = fixed(f_[k]);
@@ -233,6 +231,7 @@ class Engine {
   std::vector<double> f_, unc_;
   std::function<double(double)> unc_fn_;
   std::vector<cplx> s_, g_;
+  std::vector<cplx> l_;  // the loop of the candidate being evaluated
   int open_unstable_ = 0, integrators_ = 1;
   bool band_top_rule_ = false;
   std::size_t evaluated_ = 0;
@@ -324,7 +323,7 @@ Candidate top_feasible(Engine& e, const Shape& sh, const std::vector<double>& fc
   }
   if (!best.ok || hi_bad == 0) return best;
   double lo = best.fc_hz, hi = hi_bad;
-  for (int i = 0; i < 18 && hi / lo > 1 + 1e-5; ++i) {
+  for (int i = 0; i < 12 && hi / lo > 1 + 1e-5; ++i) {
     const double mid = std::sqrt(lo * hi);
     Candidate d = ev(mid);
     if (d.ok) best = d, lo = mid;
