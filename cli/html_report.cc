@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <memory>
 #include <complex>
 #include <cstdio>
 #include <functional>
@@ -618,6 +619,45 @@ std::string html_report(const ReportData& d) {
       };
       o << row({"verdict", verdict(b), verdict(&a)}, false);
       o << "</table>\n";
+      // |L| and the step response, before and after, on the fitted model
+      {
+        const loop::Controller ca = loop::parse_controller(r.spec);
+        const std::vector<double> fg = log_grid(f_lo, f_hi, 1000);
+        std::vector<double> mag_after, mag_before;
+        std::unique_ptr<loop::Controller> cb;
+        if (b) cb = std::make_unique<loop::Controller>(loop::parse_controller(b->controller));
+        for (double f : fg) {
+          mag_after.push_back(20 * std::log10(std::abs(model.response(f) * ca.model.response(f))));
+          if (cb) mag_before.push_back(20 * std::log10(std::abs(model.response(f) * cb->model.response(f))));
+        }
+        svg::Plot p("Tuning: loop gain |L| before and after");
+        if (cb) p.series.push_back({"before", fg, mag_before, svg::blue, 1.6, true});
+        p.series.push_back({"after (proposal)", fg, mag_after, svg::vermillion, 1.8});
+        frequency_axis(p, ft.data.freq_hz.front(), ft.data.freq_hz.back());
+        p.y.label = "|L| (dB)";
+        p.guides.push_back({false, 0, "0 dB"});
+        if (std::isfinite(a.m.crossover_hz))
+          p.markers.push_back({"after: crossover " + svg::si_quantity(a.m.crossover_hz, "Hz") + ", PM " +
+                                   fmt("%.1f", a.m.phase_margin_deg) + "\xC2\xB0", a.m.crossover_hz, 0.0, svg::black});
+        if (b && std::isfinite(b->m.crossover_hz))
+          p.markers.push_back({"before: crossover " + svg::si_quantity(b->m.crossover_hz, "Hz"), b->m.crossover_hz, 0.0, svg::blue});
+        p.fit_y();
+        o << figure(p, "Loop gain on the fitted model with the controller given (dashed) and with the proposal (line); "
+                       "dotted verticals bound the fitted band, where the model is evidence.");
+      }
+      if (a.step) {
+        svg::Plot p("Tuning: closed-loop step before and after");
+        if (b && b->step) p.series.push_back({"before", b->step->t, b->step->y, svg::blue, 1.6, true});
+        p.series.push_back({"after (proposal)", a.step->t, a.step->y, svg::vermillion, 1.8});
+        p.x.label = "time (s)";
+        p.x.lo = 0;
+        p.x.hi = a.step->t.empty() ? 1 : a.step->t.back();
+        if (b && b->step && !b->step->t.empty()) p.x.hi = std::max(p.x.hi, b->step->t.back());
+        p.y.label = "output / reference step";
+        p.fit_y();
+        o << figure(p, "Unit reference step through the closed loop on the model, before (dashed) and after (line); "
+                       "each is simulated until it has settled.");
+      }
       if (!a.outside_band.empty()) {
         o << "<p>Outside the fitted band:";
         for (const auto& w : a.outside_band) o << " " << esc(w) << ";";

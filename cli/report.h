@@ -20,9 +20,10 @@ struct ReportArgs {
 };
 
 // Where a report and its companions go: REPORT.html, REPORT.frf.csv,
-// REPORT.model.json, REPORT.loop.json (in keep_dir when given).
+// REPORT.model.json, REPORT.loop.json, and with --tune REPORT.controller.json
+// (in keep_dir when given).
 struct ReportPaths {
-  std::string report, frf, model, loop;
+  std::string report, frf, model, loop, controller;
 };
 ReportPaths report_paths(const std::string& report, const std::string& keep_dir);
 

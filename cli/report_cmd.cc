@@ -98,6 +98,7 @@ ReportPaths report_paths(const std::string& report, const std::string& keep_dir)
   p.frf = (dir / (stem + ".frf.csv")).string();
   p.model = (dir / (stem + ".model.json")).string();
   p.loop = (dir / (stem + ".loop.json")).string();
+  p.controller = (dir / (stem + ".controller.json")).string();
   return p;
 }
 
@@ -116,6 +117,7 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   check_output(paths.frf, OutputKind::frf_csv, inputs);
   check_output(paths.model, OutputKind::model_json, inputs);
   check_output(paths.loop, OutputKind::loop_json, inputs);
+  if (!a.tune.empty()) check_output(paths.controller, OutputKind::controller_json, inputs);
   if (!a.keep_dir.empty() && !fs::is_directory(a.keep_dir))
     throw InputError("--keep " + a.keep_dir + ": not a directory; expected an existing folder for the FRF, model and loop files");
 
@@ -209,6 +211,9 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   d.loop_frf = lf ? &*lf : nullptr;
   d.files = {{paths.frf, "the FRF (benchid frf CSV)"}, {paths.model, "the fitted model (benchid.model/1 JSON)"}};
   if (lm) d.files.emplace_back(paths.loop, "the loop figures on the model (benchid.loop/1 JSON)");
+  if (tuned)
+    d.files.emplace_back(paths.controller, "the proposed controller with its figures (benchid.controller/1 JSON; "
+                                           "'benchid loop --controller' reads it)");
   d.settings = {{"fit", "order " + a.fit.order + ", delay " + a.fit.delay + ", weighting " + a.fit.weighting +
                             ", integrators " + std::to_string(a.fit.integrators)},
                 {"fit band", band_note}};
@@ -223,6 +228,7 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
   write_file_atomically(paths.frf, csv.str());
   write_file_atomically(paths.model, model_js);
   if (lm) write_file_atomically(paths.loop, lm->json.dump(2) + "\n");
+  if (tuned) write_file_atomically(paths.controller, tuned->json.dump(2) + "\n");
   write_file_atomically(paths.report, html);
   lap(times.write_s);
   if (!quiet) {
@@ -233,8 +239,15 @@ ReportTimes run_report(const ReportArgs& a, const ReportPaths& paths, bool quiet
       std::cout << "  loop: phase margin " << fmt_num(std::round(lm->m.phase_margin_deg * 10) / 10) << " deg at "
                 << fmt_num(lm->m.crossover_hz) << " Hz, gain margin " << fmt_num(std::round(lm->m.gain_margin_db * 10) / 10)
                 << " dB; verdict " << (lm->pass ? "pass" : "FAIL") << "\n";
+    if (tuned)
+      std::cout << "  tune: proposal " << tuned->r.spec << " (phase margin "
+                << fmt_num(std::round(tuned->r.nominal.pm_deg * 10) / 10) << " deg, gain margin "
+                << fmt_num(std::round(tuned->r.nominal.gm_db * 10) / 10) << " dB, Ms "
+                << fmt_num(std::round(tuned->r.nominal.ms_db * 10) / 10) << " dB); a starting point only, see the report's caution\n";
+    else if (!tune_note.empty())
+      std::cout << "  tune: no proposal (" << tune_note << ")\n";
     std::cout << "  wrote " << paths.report << " (and " << paths.frf << ", " << paths.model << (lm ? ", " + paths.loop : "")
-              << ")\n";
+              << (tuned ? ", " + paths.controller : "") << ")\n";
   }
   return times;
 }

@@ -20,6 +20,7 @@
 #include "cli/report.h"
 #include "cli/svg_plot.h"
 #include "fit/model_json.h"
+#include "loop/controller.h"
 #include "ident/frf_csv.h"
 #include "tests/support/run_cli.h"
 #include "tests/support/temp_dir.h"
@@ -357,6 +358,47 @@ TEST(DemoReport, PlotsMapBackToTheFilesNumbers) {
   }
 }
 
+// report --tune (the belt-axis scenario): the controller file beside the
+// report meets the targets under the loop routines, and the "after" curve of
+// the tuning plot is |C P| of the fitted model and that controller.
+TEST(DemoReport, TuningSectionMatchesTheControllerFile) {
+  const auto& run = demo_run();
+  for (const auto& s : benchid::cli::demo_scenarios()) {
+    if (s.tune.empty()) continue;
+    SCOPED_TRACE(s.name);
+    const auto& p = run.paths.at(s.name);
+    ASSERT_TRUE(fs::exists(p.controller));
+    const nlohmann::json cj = nlohmann::json::parse(slurp(p.controller));
+    EXPECT_EQ(cj["format"], "benchid.controller/1");
+    EXPECT_TRUE(cj["loop_verdict_pass"].get<bool>());
+    EXPECT_GE(cj["achieved"]["phase_margin_deg"].get<double>(), 45);
+    EXPECT_GE(cj["achieved"]["gain_margin_db"].get<double>(), 10);
+    EXPECT_LE(cj["achieved"]["peak_sensitivity_db"].get<double>(), 6);
+    const std::string html = slurp(p.report);
+    EXPECT_NE(html.find("Proposed tuning"), std::string::npos);
+    EXPECT_NE(html.find("Apply them to the machine gradually"), std::string::npos) << "the tuning caution";
+    const benchid::fit::RationalModel model = benchid::fit::read_model_json(p.model);
+    const benchid::loop::Controller c = benchid::loop::parse_controller(cj["spec"].get<std::string>());
+    const auto plots = plots_of(html);
+    const SvgPlot* lp = nullptr;
+    for (const auto& q : plots)
+      if (q.title.rfind("Tuning: loop gain", 0) == 0) lp = &q;
+    ASSERT_NE(lp, nullptr);
+    const double ylim = 0.005 * (lp->y.hi - lp->y.lo);
+    std::size_t n = 0;
+    for (const auto& r : series_points(*lp, "after (proposal)"))
+      for (const auto& [f, db] : r) {
+        EXPECT_NEAR(db, 20 * std::log10(std::abs(model.response(f) * c.model.response(f))), ylim) << "at " << f << " Hz";
+        ++n;
+      }
+    EXPECT_GT(n, 100u);
+    // `benchid loop` on the model with the controller file passes
+    const TempDir d;
+    const auto l = benchid::test::run_benchid(d, "loop " + p.model + " --controller " + p.controller + " --strict");
+    EXPECT_EQ(l.code, 0) << l.out << l.err;
+  }
+}
+
 TEST(DemoReport, IsSelfContainedAndCarriesTheCaution) {
   const auto& run = demo_run();
   for (const auto& [name, p] : run.paths) {
@@ -396,6 +438,7 @@ TEST(ReportCli, BadInputFailsBeforeWritingWithTheStageNamed) {
       {"report " + rec + " --input u --output nope", "frf stage"},
       {"report " + rec + " --input u --output y --order 0", "fit stage"},
       {"report " + rec + " --input u --output y --controller pid:kp=oops", "loop stage"},
+      {"report " + rec + " --input u --output y --tune pd", "tune stage"},
   };
   for (const auto& c : cases) {
     SCOPED_TRACE(c.args);
@@ -403,7 +446,7 @@ TEST(ReportCli, BadInputFailsBeforeWritingWithTheStageNamed) {
     EXPECT_EQ(r.code, 2) << r.err;
     EXPECT_NE(r.err.find(c.stage), std::string::npos) << r.err;
     EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1) << "one line: " << r.err;
-    for (const char* f : {"out.html", "out.frf.csv", "out.model.json", "out.loop.json"})
+    for (const char* f : {"out.html", "out.frf.csv", "out.model.json", "out.loop.json", "out.controller.json"})
       EXPECT_FALSE(fs::exists(d.file(f))) << f;
   }
   // the report may not overwrite the recording
