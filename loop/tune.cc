@@ -23,6 +23,10 @@ constexpr double kTwoPi = 2 * std::numbers::pi;
 constexpr double kDeg = 180 / std::numbers::pi;
 constexpr double kAlphaMin = 0.005, kAlphaMax = 40;  // the range of fc over the integral corner searched
 
+// |z| without std::abs's guard against overflow (hypot): loop values here
+// are far from the double range's ends, and this is the search's inner loop
+inline double mag(cplx z) { return std::sqrt(z.real() * z.real() + z.imag() * z.imag()); }
+
 std::string num(double v) {
   char b[40];
   std::snprintf(b, sizeof b, "%.6g", v);
@@ -86,19 +90,37 @@ class Engine {
   cplx fixed(double f_hz) const {
     return plant_(f_hz) * notch_factor(s_of(f_hz)) * std::polar(1.0, -kTwoPi * f_hz * o_.compute_delay_s);
   }
-  // the controller with kp = 1
-  cplx unit_controller(const Shape& sh, double wc, cplx s) const {
-    const double wi = wc / sh.alpha;
-    cplx c = 1.0 + wi / s;
-    if (o_.structure == TuneStructure::pid && sh.beta > 0) {
-      const double td = sh.beta / wc;
-      c += td * s / (td / o_.derivative_filter * s + 1.0);
+  // The controller with kp = 1, its constants worked out once per candidate.
+  // s is always on the imaginary axis (j w, or Tustin's j (2/T) tan(w T/2)),
+  // so each factor is written out in real arithmetic for s = j w_s: the
+  // library's complex division guards against overflow and costs several
+  // times as much, in the loop that dominates the search.
+  struct Unit {
+    double wi = 0;               // integral corner, rad/s
+    double td = 0, tf = 0;       // PID: derivative time and its filter, s
+    double z = 0, p = 0;         // PI + lead: zero and pole, rad/s (0: none)
+    cplx at(double ws) const {   // ws = Im(s), rad/s
+      cplx c(1, -wi / ws);
+      if (td > 0) {  // td s / (tf s + 1)
+        const double d = 1 + tf * tf * ws * ws;
+        c += cplx(td * tf * ws * ws / d, td * ws / d);
+      }
+      if (z > 0) {  // (1 + s/z) / (1 + s/p)
+        const double u = ws / z, v = ws / p, d = 1 + v * v;
+        c *= cplx((1 + u * v) / d, (u - v) / d);
+      }
+      return c;
     }
+  };
+  Unit unit_controller(const Shape& sh, double wc) const {
+    Unit u;
+    u.wi = wc / sh.alpha;
+    if (o_.structure == TuneStructure::pid && sh.beta > 0) u.td = sh.beta / wc, u.tf = u.td / o_.derivative_filter;
     if (o_.structure == TuneStructure::pi_lead && sh.phi > 0) {
       const double a = (1 + std::sin(sh.phi)) / (1 - std::sin(sh.phi));
-      c *= (1.0 + s / (wc / std::sqrt(a))) / (1.0 + s / (wc * std::sqrt(a)));
+      u.z = wc / std::sqrt(a), u.p = wc * std::sqrt(a);
     }
-    return c;
+    return u;
   }
 
   // Evaluate one candidate; `full`: every figure even when a target fails
@@ -109,7 +131,8 @@ class Engine {
     c.sh = sh;
     c.fc_hz = fc_hz;
     const double wc = kTwoPi * fc_hz;
-    const cplx at_fc = unit_controller(sh, wc, s_of(fc_hz)) * fixed(fc_hz);
+    const Unit unit = unit_controller(sh, wc);
+    const cplx at_fc = unit.at(s_of(fc_hz).imag()) * fixed(fc_hz);
     if (!(std::abs(at_fc) > 0) || !std::isfinite(std::abs(at_fc))) return c;
     c.kp = 1 / std::abs(at_fc);
     c.ki = c.kp * wc / sh.alpha;
@@ -119,10 +142,10 @@ class Engine {
     if (!full) {
       // most candidates fail near their crossover: a sparse look there first
       const auto a = std::lower_bound(f_.begin(), f_.end(), fc_hz / 10), b = std::upper_bound(a, f_.end(), fc_hz * 10);
-      for (auto it = a; it < b; it += 3) {
-        const std::size_t k = static_cast<std::size_t>(it - f_.begin());
-        const cplx l = c.kp * unit_controller(sh, wc, s_[k]) * g_[k];
-        if (std::abs(1.0 + l) - unc_[k] * std::abs(l) < 1 / ms_lim) return c;
+      const std::size_t ka = static_cast<std::size_t>(a - f_.begin()), kb = static_cast<std::size_t>(b - f_.begin());
+      for (std::size_t k = ka; k < kb; k += 3) {
+        const cplx l = c.kp * unit.at(s_[k].imag()) * g_[k];
+        if (mag(1.0 + l) - unc_[k] * mag(l) < 1 / ms_lim) return c;
       }
     }
     double ms = 0, gm = std::numeric_limits<double>::infinity();
@@ -135,10 +158,10 @@ class Engine {
     bool failed = false;
     cplx prev_l{};
     for (std::size_t k = 0; k < f_.size(); ++k) {
-      const cplx l = c.kp * unit_controller(sh, wc, s_[k]) * g_[k];
+      const cplx l = c.kp * unit.at(s_[k].imag()) * g_[k];
       l_[k] = l;
-      const double al = std::abs(l), u = unc_[k];
-      const double dist = std::abs(1.0 + l) - u * al;
+      const double al = mag(l), u = unc_[k];
+      const double dist = mag(1.0 + l) - u * al;
       const double sens = dist > 1e-12 ? 1 / dist : 1e12;
       ms = std::max(ms, sens);
       if (!full && sens > ms_lim) return c;
@@ -255,7 +278,7 @@ std::vector<Shape> shapes(const TuneOptions& o) {
   for (double a : alphas) {
     if (o.structure == TuneStructure::pi) out.push_back({a, 0, 0});
     if (o.structure == TuneStructure::pid)
-      for (double b : {0.0, 0.15, 0.3, 0.5, 0.8, 1.2, 2.0}) out.push_back({a, b, 0});
+      for (double b : {0.0, 0.15, 0.3, 0.5, 0.8, 1.2, 2.0, 3.5, 6.0, 10.0}) out.push_back({a, b, 0});
     if (o.structure == TuneStructure::pi_lead)
       for (double p : linspace(0, o.max_lead_deg, 7))
         out.push_back({a, 0, p / kDeg});
@@ -355,7 +378,7 @@ Candidate search(Engine& e, const TuneOptions& o, const std::vector<double>& fcs
         for (int sgn : {1, -1}) {
           Shape sh = cur.sh;
           if (d == 0) sh.alpha = std::clamp(sh.alpha * std::exp(sgn * step[d]), kAlphaMin, alpha_top);
-          else if (o.structure == TuneStructure::pid) sh.beta = std::clamp(sh.beta + sgn * step[d], 0.0, 4.0);
+          else if (o.structure == TuneStructure::pid) sh.beta = std::clamp(sh.beta + sgn * step[d] * std::max(1.0, sh.beta), 0.0, 20.0);
           else sh.phi = std::clamp(sh.phi + sgn * step[d], 0.0, o.max_lead_deg / kDeg);
           if (sh.alpha == cur.sh.alpha && sh.beta == cur.sh.beta && sh.phi == cur.sh.phi) continue;
           Candidate c = top_feasible(e, sh, fcs, sl, cur.fc_hz);
@@ -376,45 +399,6 @@ Candidate search(Engine& e, const TuneOptions& o, const std::vector<double>& fcs
   return overall;
 }
 
-// When nothing meets the targets: the best of each figure over the stable
-// candidates, and the one closest to all targets.
-void best_achievable(Engine& e, const TuneOptions& o, const std::vector<double>& fcs, TuneResult& r) {
-  double best_score = -std::numeric_limits<double>::infinity();
-  Candidate closest;
-  const Slack none{0, 0, 0};
-  for (const Shape& sh : shapes(o))
-    for (double fc : fcs) {
-      if (fc < o.min_crossover_hz) continue;
-      const Candidate c = e.evaluate(sh, fc, none, true);
-      if (!c.fig.stable || !std::isfinite(c.fig.pm_deg)) continue;
-      if (!(c.fig.pm_deg <= r.best_pm.pm_deg)) r.best_pm = c.fig;
-      if (!(c.fig.gm_db <= r.best_gm.gm_db)) r.best_gm = c.fig;
-      if (!(c.fig.ms_db >= r.best_ms.ms_db)) r.best_ms = c.fig;
-      // margins in units of a modest step of each (10 deg, 3 dB, 1.5 dB)
-      const double score = std::min({(c.fig.pm_deg - o.pm_min_deg) / 10, (c.fig.gm_db - o.gm_min_db) / 3,
-                                     (o.ms_max_db - c.fig.ms_db) / 1.5});
-      if (score > best_score) best_score = score, closest = c;
-    }
-  if (std::isfinite(best_score)) {
-    r.closest = closest.fig;
-    TuneResult tmp;
-    const double wc = kTwoPi * closest.fc_hz;
-    tmp.kp = closest.kp;
-    tmp.ki = closest.ki;
-    if (o.structure == TuneStructure::pid && closest.sh.beta > 0) {
-      tmp.kd = closest.kp * closest.sh.beta / wc;
-      tmp.tf_s = closest.sh.beta / wc / o.derivative_filter;
-    }
-    if (o.structure == TuneStructure::pi_lead && closest.sh.phi > 0) {
-      const double a = (1 + std::sin(closest.sh.phi)) / (1 - std::sin(closest.sh.phi));
-      tmp.lead_zero_hz = closest.fc_hz / std::sqrt(a);
-      tmp.lead_pole_hz = closest.fc_hz * std::sqrt(a);
-    }
-    tmp.notches = r.notches;
-    r.closest_spec = tune_spec(tmp, o);
-  }
-}
-
 void fill_parameters(const Candidate& c, const TuneOptions& o, TuneResult& r) {
   const double wc = kTwoPi * c.fc_hz;
   r.kp = c.kp;
@@ -431,6 +415,35 @@ void fill_parameters(const Candidate& c, const TuneOptions& o, TuneResult& r) {
     r.lead_pole_hz = c.fc_hz * std::sqrt(a);
   }
   r.integral_gain = r.ki;
+}
+
+// When nothing meets the targets: the best of each figure over the stable
+// candidates, and the one closest to all targets.
+void best_achievable(Engine& e, const TuneOptions& o, const std::vector<double>& fcs, TuneResult& r) {
+  double best_score = -std::numeric_limits<double>::infinity();
+  Candidate closest;
+  const Slack none{0, 0, 0};
+  for (const Shape& sh : shapes(o))
+    for (double fc : fcs) {
+      if (fc < o.min_crossover_hz) continue;
+      const Candidate c = e.evaluate(sh, fc, none, true);
+      // (a shape with several gain crossings may have its worst one below fc)
+      if (!c.fig.stable || !std::isfinite(c.fig.pm_deg) || c.fig.crossover_hz < o.min_crossover_hz) continue;
+      if (!(c.fig.pm_deg <= r.best_pm.pm_deg)) r.best_pm = c.fig;
+      if (!(c.fig.gm_db <= r.best_gm.gm_db)) r.best_gm = c.fig;
+      if (!(c.fig.ms_db >= r.best_ms.ms_db)) r.best_ms = c.fig;
+      // margins in units of a modest step of each (10 deg, 3 dB, 1.5 dB)
+      const double score = std::min({(c.fig.pm_deg - o.pm_min_deg) / 10, (c.fig.gm_db - o.gm_min_db) / 3,
+                                     (o.ms_max_db - c.fig.ms_db) / 1.5});
+      if (score > best_score) best_score = score, closest = c;
+    }
+  if (std::isfinite(best_score)) {
+    r.closest = closest.fig;
+    TuneResult tmp;
+    fill_parameters(closest, o, tmp);
+    tmp.notches = r.notches;
+    r.closest_spec = tune_spec(tmp, o);
+  }
 }
 
 void check_options(const TuneOptions& o) {
@@ -499,8 +512,21 @@ std::string method_name(const TuneOptions& o) {
                    num(o.integral_ratio) + " of it (Astrom & Murray, Feedback Systems, 2008)";
 }
 
+// Notes on a PID whose shape an engineer may not expect from the structure's name.
+void describe_shape(TuneResult& r, const TuneOptions& o) {
+  if (o.structure != TuneStructure::pid) return;
+  if (r.kd == 0) {
+    r.notes.push_back("no derivative action: on this plant it did not raise the objective under the targets (the proposal is a PI)");
+    return;
+  }
+  const double corner_hz = 1 / (kTwoPi * r.tf_s);
+  if (corner_hz < r.nominal.crossover_hz)
+    r.notes.push_back("the derivative filter corner " + num(corner_hz) + " Hz lies below the crossover " +
+                      num(r.nominal.crossover_hz) + " Hz: from there up the D term adds a constant gain kd/tf = " +
+                      num(r.kd / r.tf_s) + " (a lag-lead shape rather than a derivative at crossover)");
+}
+
 // Runs the search, widening the slack until the final check passes.
-// verify(spec, r) fills r.nominal / r.at_bound and says whether the targets hold.
 // verify(r, misses) fills r.nominal / r.at_bound, says whether the targets
 // hold, and names the frequencies of the exact crossings and peaks; when it
 // fails, points are added around them and the search runs again.
@@ -523,6 +549,7 @@ TuneResult run(Engine& e, const TuneOptions& o, const std::vector<double>& fcs,
     if (pass) {
       r.found = true;
       r.candidates = e.evaluated();
+      describe_shape(r, o);
       return r;
     }
     // the grid missed something near these frequencies: look closer there
