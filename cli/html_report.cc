@@ -619,6 +619,10 @@ std::string html_report(const ReportData& d) {
       };
       o << row({"verdict", verdict(b), verdict(&a)}, false);
       o << "</table>\n";
+      if (d.tune->json.value("objective", "") == "integral")
+        o << "<p class=\"sub\">The integral objective tunes for load disturbances, not for the reference step: its "
+             "overshoot is usually shaped afterwards by set-point weighting or a reference prefilter, which leave "
+             "these margins unchanged (Astrom &amp; Hagglund, Advanced PID Control, 2006).</p>\n";
       // |L| and the step response, before and after, on the fitted model
       {
         const loop::Controller ca = loop::parse_controller(r.spec);

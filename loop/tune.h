@@ -103,7 +103,7 @@ struct TuneResult {
   double kp = 0, ki = 0, kd = 0, tf_s = 0;   // pid: parameters (ki in 1/s, kd in s)
   double lead_zero_hz = 0, lead_pole_hz = 0; // PI + lead (0: none)
   std::vector<NotchSetting> notches;        // the notches in the proposal
-  std::vector<std::string> notes;           // auto notches placed or left out, and why
+  std::vector<std::string> notes;           // auto notches placed or left out, and why; a PID's unusual shape
   double integral_gain = 0;         // lim s C(s), 1/s
   TuneFigures nominal;              // at the estimate (the model, or the FRF's values)
   TuneFigures at_bound;             // FRF plant: at the error bound (else = nominal)
