@@ -38,12 +38,6 @@ struct LoopCommand {
 
 nlohmann::json num_or_null(double v) { return std::isfinite(v) ? nlohmann::json(v) : nlohmann::json(nullptr); }
 
-std::string fmt(const char* f, double v) {
-  char b[64];
-  std::snprintf(b, sizeof b, f, v);
-  return b;
-}
-
 // --sweep NAME=LO:HI:N: the figures for N values of one controller parameter
 void run_sweep(const LoopCommand& cmd, const std::string& controller, bool frf_plant) {
   const LoopArgs& a = cmd.loop;

@@ -1,5 +1,7 @@
 #include "cli/text_report.h"
 
+#include "ident/error.h"
+
 #include <cmath>
 #include <cstdio>
 #include <ctime>
@@ -15,13 +17,6 @@ const char* const kCaution =
     "damage it or hurt people: limit the level, keep a way to stop, follow the machine's safety\n"
     "rules and defer to licensed practice. benchid recommends nothing it has not computed.\n";
 
-namespace {
-std::string fmt(const char* f, double v) {
-  char b[64];
-  std::snprintf(b, sizeof b, f, v);
-  return b;
-}
-}  // namespace
 
 std::string frf_text_report(const ident::Frf& f, const std::string& command_line, std::size_t rows) {
   std::ostringstream s;

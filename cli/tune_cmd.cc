@@ -26,12 +26,6 @@ const char* const kTuneCaution =
 
 namespace {
 
-std::string fmt(const char* f, double v) {
-  char b[64];
-  std::snprintf(b, sizeof b, f, v);
-  return b;
-}
-
 nlohmann::json num_or_null(double v) { return std::isfinite(v) ? nlohmann::json(v) : nlohmann::json(nullptr); }
 
 nlohmann::json figures_json(const loop::TuneFigures& f) {

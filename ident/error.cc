@@ -17,4 +17,9 @@ std::string fmt_num(double v) {
   std::snprintf(b, sizeof b, "%.6g", v);
   return b;
 }
+std::string fmt(const char* printf_format, double v) {
+  char b[64];
+  std::snprintf(b, sizeof b, printf_format, v);
+  return b;
+}
 }  // namespace benchid

@@ -24,5 +24,7 @@ class InputError : public std::runtime_error {
 std::string where(const std::string& file, long line = 0);
 // A number as a user would write it (%.6g): "1.2", "4096", "2.5e-05".
 std::string fmt_num(double v);
+// A number in a printf format for one double ("%.2f"): for tables.
+std::string fmt(const char* printf_format, double v);
 
 }  // namespace benchid
