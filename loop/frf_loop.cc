@@ -98,9 +98,14 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
       out.inferred_unstable = static_cast<int>(std::lround(z));
       out.stability_note = "inferred from the Nyquist plot of the measured band, assuming an open-loop stable plant with " +
                            std::to_string(k) + " integrator(s) below the band (declare the plant's with --plant-integrators)";
-    } else {
+    } else if (l_hi >= 0.5) {
       out.stability_note = "not inferred: |L| = " + fmt_num(l_hi) + " at the top of the measured band (the loop gain must fall "
                            "below 1 inside the band for the Nyquist count)";
+    } else {
+      out.stability_note = "not inferred: the Nyquist count over the measured band is " + fmt_num(std::round(z * 100) / 100) +
+                           " turns, not a whole number (with " + std::to_string(k) +
+                           " integrator(s) the loop gain must be large at the bottom of the band; |L| = " +
+                           fmt_num(std::abs(nominal(lo) * c.model.response(lo))) + " at " + fmt_num(lo) + " Hz)";
     }
   }
 

@@ -280,6 +280,14 @@ TEST(FrfLoop, ExactFrfSampledDenselyGivesTheModelMargins) {
   EXPECT_EQ(fm.inferred_unstable, 0) << fm.stability_note;
   // K = 10 x 3 = 30 > 30: 10/(s(s+1)(s+5)) is marginal at gain 3 (GM 9.54 dB)
   EXPECT_EQ(frf_margins(dense_frf(p, 0.0), parse_controller("gain:k=4"), o).inferred_unstable, 2);
+  // the plant's integrator not declared: the count over the band is off by
+  // the quarter turn per integrator the formula expects below it, 2 x 1/4
+  // turn = half a turn (Nyquist criterion, common practice): no verdict, and
+  // the note says why
+  o.plant_integrators = 0;
+  const FrfMargins undeclared = frf_margins(dense_frf(p, 0.0), c, o);
+  EXPECT_NE(undeclared.stability_note.find("not a whole number"), std::string::npos) << undeclared.stability_note;
+  EXPECT_NE(undeclared.stability_note.find("0.5 turns"), std::string::npos) << undeclared.stability_note;
 }
 
 TEST(FrfLoop, MonteCarloSpreadScalesWithTheMeasurementError) {
