@@ -26,6 +26,24 @@ const char* const kTuneCaution =
 
 namespace {
 
+// What keeps the candidate closest to the targets from being a proposal.
+std::string shortfall(const loop::TuneFigures& f, const loop::TuneOptions& o) {
+  std::vector<std::string> why;
+  if (f.pm_deg < o.pm_min_deg) why.push_back("PM below target");
+  if (f.gm_db < o.gm_min_db) why.push_back("GM below target");
+  if (f.ms_db > o.ms_max_db) why.push_back("Ms above target");
+  if (f.crossover_hz < o.min_crossover_hz) why.push_back("crossover below --min-crossover");
+  if (std::isfinite(f.outside_band_hz))
+    why.push_back("a gain crossover at " + fmt("%.4g", f.outside_band_hz) + " Hz, outside the fitted " +
+                  (o.band_hi_hz > 0 ? "band " + fmt("%.4g", o.band_lo_hz) + " to " + fmt("%.4g", o.band_hi_hz) + " Hz"
+                                    : std::string("band")));
+  if (!f.top_ok) why.push_back("|L| at the top of the measured band not below the gain-margin target");
+  if (why.empty()) return "it meets the targets on the search grid but not in the final root-refined check";
+  std::string out = "fails on: ";
+  for (std::size_t i = 0; i < why.size(); ++i) out += (i ? ", " : "") + why[i];
+  return out;
+}
+
 nlohmann::json num_or_null(double v) { return std::isfinite(v) ? nlohmann::json(v) : nlohmann::json(nullptr); }
 
 nlohmann::json figures_json(const loop::TuneFigures& f) {
@@ -125,12 +143,21 @@ TuneOutcome tune_plant(const TuneArgs& a, const std::string& plant_name, const f
   if (!r.found) {
     std::ostringstream m;
     m << "no " << loop::structure_name(o.structure) << " controller meets " << targets << " on " << plant_name
-      << "; best achievable over " << r.candidates << " stable candidates searched (each on its own): ";
+      << "; best achievable over the stable ones of " << r.candidates << " candidates searched (each figure on its own): ";
     if (std::isfinite(r.best_pm.pm_deg))
       m << "PM " << fmt("%.3g", r.best_pm.pm_deg) << " deg, GM " << fmt("%.3g", r.best_gm.gm_db) << " dB, Ms "
         << fmt("%.3g", r.best_ms.ms_db) << " dB; closest to all targets: " << r.closest_spec << " (PM "
         << fmt("%.3g", r.closest.pm_deg) << " deg, GM " << fmt("%.3g", r.closest.gm_db) << " dB, Ms "
-        << fmt("%.3g", r.closest.ms_db) << " dB, crossover " << fmt("%.4g", r.closest.crossover_hz) << " Hz)";
+        << fmt("%.3g", r.closest.ms_db) << " dB, crossover " << fmt("%.4g", r.closest.crossover_hz) << " Hz; "
+        << shortfall(r.closest, o) << ")";
+    else if (r.not_judged > 0 && r.frf_plant)
+      m << "none is judged stable: the Nyquist count over the measured band is not a whole number of turns ("
+        << r.not_judged << " candidates), as when the controller's integrator has not yet made |L| large at the bottom "
+           "of the band; measure lower frequencies, declare the plant's integrators (--plant-integrators), or tune "
+           "on the fitted model";
+    else if (r.not_judged > 0)
+      m << "none is judged stable: the Nyquist count over the frequency grid is not a whole number of turns ("
+        << r.not_judged << " candidates)";
     else
       m << "none gives a stable loop with a gain crossover";
     m << ". Relax a target, lower --min-crossover, or try another --structure (pid, pi+lead)";

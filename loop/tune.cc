@@ -149,7 +149,7 @@ class Engine {
       }
     }
     double ms = 0, gm = std::numeric_limits<double>::infinity();
-    bool crossing_outside = false;
+    double outside_hz = std::numeric_limits<double>::quiet_NaN();  // a gain crossing outside the fitted band
     // the design crossover is on the unit circle by construction
     const cplx l_fc = c.kp * at_fc;
     double pm = 180 - std::abs(std::arg(l_fc)) * kDeg - std::asin(std::min(1.0, unc_at(fc_hz))) * kDeg;
@@ -183,7 +183,8 @@ class Engine {
           ang = std::remainder(ang, kTwoPi);
           const double m = 180 - std::abs(ang) * kDeg - std::asin(std::min(1.0, u2)) * kDeg;
           if (m < pm) pm = m, pm_hz = f_[k - 1] * std::pow(f_[k] / f_[k - 1], t);
-          if (o_.band_hi_hz > 0 && (f_[k] < o_.band_lo_hz || f_[k - 1] > o_.band_hi_hz)) crossing_outside = true;
+          if (o_.band_hi_hz > 0 && (f_[k] < o_.band_lo_hz || f_[k - 1] > o_.band_hi_hz) && !std::isfinite(outside_hz))
+            outside_hz = f_[k - 1] * std::pow(f_[k] / f_[k - 1], t);
           if (!full && m < pm_lim) return c;
         }
         // phase crossing: L real and negative
@@ -206,15 +207,23 @@ class Engine {
     const auto outside = [&](double f) {
       return o_.band_hi_hz > 0 && std::isfinite(f) && (f < o_.band_lo_hz || f > o_.band_hi_hz);
     };
-    const bool in_band = !outside(pm_hz) && !outside(fc_hz) && !crossing_outside;
+    for (double f : {fc_hz, pm_hz})
+      if (!std::isfinite(outside_hz) && outside(f)) outside_hz = f;
+    const bool in_band = !std::isfinite(outside_hz);
+    c.fig.outside_band_hz = outside_hz;
+    c.fig.top_ok = top_ok;
     failed = !in_band || !top_ok || ms > ms_lim || pm < pm_lim || gm < gm_lim || !std::isfinite(pm) || fc_hz < o_.min_crossover_hz;
     if (!failed || full) {
       // Nyquist: Z = P - (2 D - K pi)/(2 pi), D the change of arg(1 + L) over the grid (stability.h)
       // (the first pass has been through every point: L is in l_)
       double arg_change = 0;
       for (std::size_t k = 1; k < f_.size(); ++k) arg_change += std::arg((1.0 + l_[k]) / (1.0 + l_[k - 1]));
-      const int z = open_unstable_ - static_cast<int>(std::lround((2 * arg_change - integrators_ * kPi) / kTwoPi));
-      c.fig.stable = z == 0;
+      // a count far from a whole number of turns means the grid's ends do
+      // not show the loop's ends (with integrators, |L| not yet large at the
+      // bottom): no verdict, as frf_margins and closed_loop_stability refuse one
+      const double turns = (2 * arg_change - integrators_ * kPi) / kTwoPi;
+      c.fig.judged = std::abs(turns - std::round(turns)) < 0.15;
+      c.fig.stable = c.fig.judged && open_unstable_ == std::lround(turns);
     }
     c.fig.ms_db = 20 * std::log10(ms);
     c.fig.pm_deg = pm;
@@ -427,6 +436,7 @@ void best_achievable(Engine& e, const TuneOptions& o, const std::vector<double>&
     for (double fc : fcs) {
       if (fc < o.min_crossover_hz) continue;
       const Candidate c = e.evaluate(sh, fc, none, true);
+      if (!c.fig.judged) ++r.not_judged;
       // (a shape with several gain crossings may have its worst one below fc)
       if (!c.fig.stable || !std::isfinite(c.fig.pm_deg) || c.fig.crossover_hz < o.min_crossover_hz) continue;
       if (!(c.fig.pm_deg <= r.best_pm.pm_deg)) r.best_pm = c.fig;

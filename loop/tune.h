@@ -95,6 +95,11 @@ struct TuneFigures {
   double ms_db = std::numeric_limits<double>::quiet_NaN();
   double crossover_hz = std::numeric_limits<double>::quiet_NaN();
   bool stable = false;
+  bool judged = true;  // false: the Nyquist count over the grid was not a whole number of turns
+  // a gain crossover outside the fitted band (NaN: none); FRF plant: |L| at the
+  // top of the band below the gain-margin target
+  double outside_band_hz = std::numeric_limits<double>::quiet_NaN();
+  bool top_ok = true;
 };
 
 struct TuneResult {
@@ -114,6 +119,7 @@ struct TuneResult {
   std::string closest_spec;
   TuneFigures closest;
   std::size_t candidates = 0;       // controllers evaluated
+  std::size_t not_judged = 0;       // no proposal: candidates whose closed-loop stability could not be judged
   std::string method;               // the published method used
 };
 

@@ -380,3 +380,46 @@ TEST(Tune, RefusesBadOptions) {
 }
 
 }  // namespace
+
+TEST(Tune, NoProposalSaysWhy) {
+  // a spring-mass actuator: static gain 0.1, resonance at 60 Hz (damping
+  // 0.05), measured or fitted from 6 Hz up. A PI's integrator lifts |L| above
+  // 1 only far below 6 Hz, where |L| = 0.1 |kp + ki/(j w)| = 1 at
+  // w = ki / sqrt(1/0.1^2 - kp^2): that gain crossover lies outside the band.
+  const double wn = 2 * M_PI * 60, z = 0.05;
+  const cplx pr(-z * wn, wn * std::sqrt(1 - z * z));
+  const RationalModel p = zpk_model({}, {pr, std::conj(pr)}, 0.1 * wn * wn, 0.0002);
+  TuneOptions o;
+  o.structure = TuneStructure::pi;
+  o.band_lo_hz = 6, o.band_hi_hz = 2300;
+  const TuneResult r = tune_model(p, o);
+  EXPECT_FALSE(r.found);
+  ASSERT_FALSE(r.closest_spec.empty());
+  const Controller c = parse_controller(r.closest_spec);
+  const double kp = c.model.response(1e6).real();  // the PI's high-frequency gain
+  const double ki = r.closest_spec.find("ki=") != std::string::npos
+                        ? std::stod(r.closest_spec.substr(r.closest_spec.find("ki=") + 3))
+                        : 0.0;
+  ASSERT_GT(ki, 0);
+  // 1 %: the crossing is interpolated in log |L| against log f, exact for
+  // the integrator's 1/f slope that dominates there
+  EXPECT_NEAR(r.closest.outside_band_hz, ki / std::sqrt(100 - kp * kp) / (2 * M_PI),
+              0.01 * r.closest.outside_band_hz);
+  // the same plant measured from 6 Hz: with |L| not yet large at the band's
+  // bottom the Nyquist count over the band is not a whole number of turns,
+  // and no stability verdict (hence no proposal) can be drawn from it
+  benchid::ident::Frf f;
+  for (int i = 24; i <= 9200; ++i) {
+    const double hz = 0.25 * i;
+    f.freq_hz.push_back(hz);
+    f.h.push_back(p.response(hz));
+    f.coherence.push_back(0.99);
+    f.rel_err.push_back(0.01);
+    f.reliable.push_back(1);
+  }
+  TuneOptions of;
+  of.structure = TuneStructure::pi;
+  const TuneResult rf = tune_frf(f, of);
+  EXPECT_FALSE(rf.found);
+  EXPECT_GT(rf.not_judged, 0u);
+}
