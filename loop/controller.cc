@@ -274,6 +274,10 @@ Controller parse_controller(const std::string& spec) {
       o.sample_time_s = dt;
       o.prewarp_hz = prewarp;
       c.model = fit::discretize(c.model, o).model;
+      // the computation delay exactly as stated (half a sample is common),
+      // not rounded to whole samples as a discretised plant's delay is: here
+      // it only ever multiplies the response by e^(-j w delay)
+      c.model.delay_s = delay;
     }
   }
   return c;

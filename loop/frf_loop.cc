@@ -79,8 +79,13 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
 
   // Nyquist count over the band, assuming an open-loop stable plant
   {
+    // the controller's integrators: poles at s = 0, or at z = 1 for a
+    // discrete controller (Tustin maps the one to the other)
+    const bool discrete = c.model.domain == fit::Domain::z;
     const int k = o.plant_integrators + c.model.integrators +
-                  static_cast<int>(std::count_if(c.model.poles.begin(), c.model.poles.end(), [](cplx q) { return std::abs(q) == 0; }));
+                  static_cast<int>(std::count_if(c.model.poles.begin(), c.model.poles.end(), [&](cplx q) {
+                    return discrete ? std::abs(q - 1.0) < 1e-9 : std::abs(q) == 0;
+                  }));
     double delta = 0, prev = 0;
     for (std::size_t i = 0; i < o.points; ++i) {
       const double fr = lo * std::pow(hi / lo, static_cast<double>(i) / static_cast<double>(o.points - 1));
