@@ -222,7 +222,9 @@ class Engine {
       // not show the loop's ends (with integrators, |L| not yet large at the
       // bottom): no verdict, as frf_margins and closed_loop_stability refuse one
       const double turns = (2 * arg_change - integrators_ * kPi) / kTwoPi;
-      c.fig.judged = std::abs(turns - std::round(turns)) < 0.15;
+      // (a measured band whose top still has |L| near 1 or above shows only
+      // part of the plot: no verdict either, as frf_margins rules)
+      c.fig.judged = std::abs(turns - std::round(turns)) < 0.15 && (!band_top_rule_ || mag(l_.back()) < 0.5);
       c.fig.stable = c.fig.judged && open_unstable_ == std::lround(turns);
     }
     c.fig.ms_db = 20 * std::log10(ms);
