@@ -286,6 +286,13 @@ TEST(FrfLoop, ExactFrfSampledDenselyGivesTheModelMargins) {
   EXPECT_EQ(fm.inferred_unstable, 0) << fm.stability_note;
   // K = 10 x 3 = 30 > 30: 10/(s(s+1)(s+5)) is marginal at gain 3 (GM 9.54 dB)
   EXPECT_EQ(frf_margins(dense_frf(p, 0.0), parse_controller("gain:k=4"), o).inferred_unstable, 2);
+  // a discrete PI: Tustin maps the integrator at s = 0 to a pole at z = 1
+  // (common practice), which counts as one in the Nyquist count: the same
+  // verdict as the continuous PI, stable (PM about 28 deg at 0.16 Hz)
+  const FrfMargins cpi = frf_margins(dense_frf(p, 0.0), parse_controller("pid:kp=0.5,ki=0.05"), o);
+  const FrfMargins dpi = frf_margins(dense_frf(p, 0.0), parse_controller("pid:kp=0.5,ki=0.05@dt=0.001"), o);
+  EXPECT_EQ(cpi.inferred_unstable, 0) << cpi.stability_note;
+  EXPECT_EQ(dpi.inferred_unstable, 0) << dpi.stability_note;
   // the plant's integrator not declared: the count over the band is off by
   // the quarter turn per integrator the formula expects below it, 2 x 1/4
   // turn = half a turn (Nyquist criterion, common practice): no verdict, and
