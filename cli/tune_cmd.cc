@@ -34,7 +34,7 @@ std::string shortfall(const loop::TuneFigures& f, const loop::TuneOptions& o) {
   if (f.ms_db > o.ms_max_db) why.push_back("Ms above target");
   if (f.crossover_hz < o.min_crossover_hz) why.push_back("crossover below --min-crossover");
   if (std::isfinite(f.outside_band_hz))
-    why.push_back("a gain crossover at " + fmt("%.4g", f.outside_band_hz) + " Hz, outside the fitted " +
+    why.push_back(std::string(f.outside_what) + " at " + fmt("%.4g", f.outside_band_hz) + " Hz, outside the fitted " +
                   (o.band_hi_hz > 0 ? "band " + fmt("%.4g", o.band_lo_hz) + " to " + fmt("%.4g", o.band_hi_hz) + " Hz"
                                     : std::string("band")));
   if (!f.top_ok) why.push_back("|L| at the top of the measured band not below the gain-margin target");

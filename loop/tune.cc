@@ -149,7 +149,11 @@ class Engine {
       }
     }
     double ms = 0, gm = std::numeric_limits<double>::infinity();
-    double outside_hz = std::numeric_limits<double>::quiet_NaN();  // a gain crossing outside the fitted band
+    // where loop reports them, and so checks them against the fitted band:
+    // the Ms peak and the (upper) gain margin's phase crossover
+    double ms_hz = NAN, upper_gm = std::numeric_limits<double>::infinity(), upper_gm_hz = NAN;
+    double outside_hz = NAN;  // a gain crossing outside the fitted band
+    const char* outside_what = "a gain crossover";
     // the design crossover is on the unit circle by construction
     const cplx l_fc = c.kp * at_fc;
     double pm = 180 - std::abs(std::arg(l_fc)) * kDeg - std::asin(std::min(1.0, unc_at(fc_hz))) * kDeg;
@@ -163,10 +167,10 @@ class Engine {
       const double al = mag(l), u = unc_[k];
       const double dist = mag(1.0 + l) - u * al;
       const double sens = dist > 1e-12 ? 1 / dist : 1e12;
-      ms = std::max(ms, sens);
+      if (sens > ms) ms = sens, ms_hz = f_[k];
       if (!full && sens > ms_lim) return c;
       if (k > 0) {
-        const double a0 = std::abs(prev_l), u2 = std::max(u, unc_[k - 1]);
+        const double a0 = mag(prev_l), u2 = std::max(u, unc_[k - 1]);
         // |L| within 2 % of 1 counts as on the unit circle: a crossing that
         // only touches it (the search pushes the design crossover fc to
         // where the constraints bind, often such a tangent) shows no change
@@ -196,6 +200,7 @@ class Engine {
             const double m = mag < 1 ? -20 * std::log10(mag) - 20 * std::log10(1 + u2)
                                      : (u2 < 1 ? 20 * std::log10(mag) + 20 * std::log10(1 - u2) : -1e9);
             gm = std::min(gm, m);
+            if (mag < 1 && m < upper_gm) upper_gm = m, upper_gm_hz = f_[k - 1] + t * (f_[k] - f_[k - 1]);
             if (!full && m < gm_lim) return c;
           }
         }
@@ -209,8 +214,12 @@ class Engine {
     };
     for (double f : {fc_hz, pm_hz})
       if (!std::isfinite(outside_hz) && outside(f)) outside_hz = f;
+    if (!std::isfinite(outside_hz) && outside(upper_gm_hz))
+      outside_hz = upper_gm_hz, outside_what = "the gain margin's phase crossover";
+    if (!std::isfinite(outside_hz) && outside(ms_hz)) outside_hz = ms_hz, outside_what = "the Ms peak";
     const bool in_band = !std::isfinite(outside_hz);
     c.fig.outside_band_hz = outside_hz;
+    c.fig.outside_what = outside_what;
     c.fig.top_ok = top_ok;
     failed = !in_band || !top_ok || ms > ms_lim || pm < pm_lim || gm < gm_lim || !std::isfinite(pm) || fc_hz < o_.min_crossover_hz;
     if (!failed || full) {
@@ -675,7 +684,9 @@ TuneResult tune_model(const fit::RationalModel& plant, const TuneOptions& o) {
     const auto inside = [&](double fr) {
       return o.band_hi_hz <= 0 || !std::isfinite(fr) || (fr >= o.band_lo_hz && fr <= o.band_hi_hz);
     };
-    bool in_band = true;
+    // every gain crossover, and the gain margin and Ms where loop reports
+    // them, inside the fitted band: loop's verdict requires it
+    bool in_band = inside(m.ms_hz) && (!std::isfinite(m.gain_margin_db) || inside(m.gain_margin_hz));
     for (const Crossing& x : m.crossings)
       if (x.kind == Crossing::Kind::gain) in_band = in_band && inside(x.freq_hz);
     return in_band && meets(f, o);

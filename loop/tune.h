@@ -96,9 +96,10 @@ struct TuneFigures {
   double crossover_hz = std::numeric_limits<double>::quiet_NaN();
   bool stable = false;
   bool judged = true;  // false: the Nyquist count over the grid was not a whole number of turns
-  // a gain crossover outside the fitted band (NaN: none); FRF plant: |L| at the
-  // top of the band below the gain-margin target
+  // a figure outside the fitted band (NaN: none) and which; FRF plant: |L|
+  // at the top of the band below the gain-margin target
   double outside_band_hz = std::numeric_limits<double>::quiet_NaN();
+  const char* outside_what = "";  // what lies there: a gain crossover, the gain margin's phase crossover, the Ms peak
   bool top_ok = true;
 };
 
