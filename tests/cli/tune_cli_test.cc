@@ -61,6 +61,14 @@ TEST(TuneCli, NoSolutionExitsOneWithBestAchievable) {
   EXPECT_EQ(t.code, 1);
   EXPECT_NE(t.err.find("no pi controller meets"), std::string::npos) << t.err;
   EXPECT_NE(t.err.find("best achievable"), std::string::npos) << t.err;
+  // 50 ms: at a 5 Hz crossover the delay lags 90 deg and the plant 45 deg, so
+  // a PI (which only adds lag) leaves less than 45 deg: stable loops exist,
+  // the closest is named with what it misses
+  const std::string p2 = plant(d, 0.05);
+  const Outcome t2 = run(d, "tune " + p2 + " --structure pi --min-crossover 5");
+  EXPECT_EQ(t2.code, 1);
+  EXPECT_NE(t2.err.find("closest to all targets: pid:"), std::string::npos) << t2.err;
+  EXPECT_NE(t2.err.find("fails on: PM below target"), std::string::npos) << t2.err;
 }
 
 TEST(TuneCli, BadOptionsExitTwo) {
