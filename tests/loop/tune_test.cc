@@ -287,11 +287,14 @@ TEST(Tune, DiscreteSectionsReproduceTheController) {
   EXPECT_THROW(controller_sections("pid:kp=1,ki=2"), benchid::InputError);
 }
 
-benchid::ident::Frf frf_of(const RationalModel& p, double rel_err, std::uint64_t seed) {
+// The plant measured on lines 0.25 Hz apart from first_hz to last_hz, each
+// with a random error of rel_err.
+benchid::ident::Frf frf_of(const RationalModel& p, double rel_err, std::uint64_t seed, double first_hz = 0.25,
+                           double last_hz = 500) {
   benchid::ident::Frf f;
   std::mt19937_64 g(seed);
   std::normal_distribution<double> n(0, 1);
-  for (int i = 1; i <= 2000; ++i) {
+  for (int i = static_cast<int>(std::lround(first_hz / 0.25)); i <= std::lround(last_hz / 0.25); ++i) {
     const double hz = 0.25 * i;
     f.freq_hz.push_back(hz);
     f.h.push_back(p.response(hz) * (1.0 + rel_err * cplx(n(g), n(g))));
@@ -408,15 +411,7 @@ TEST(Tune, NoProposalSaysWhy) {
   // the same plant measured from 6 Hz: with |L| not yet large at the band's
   // bottom the Nyquist count over the band is not a whole number of turns,
   // and no stability verdict (hence no proposal) can be drawn from it
-  benchid::ident::Frf f;
-  for (int i = 24; i <= 9200; ++i) {
-    const double hz = 0.25 * i;
-    f.freq_hz.push_back(hz);
-    f.h.push_back(p.response(hz));
-    f.coherence.push_back(0.99);
-    f.rel_err.push_back(0.01);
-    f.reliable.push_back(1);
-  }
+  const benchid::ident::Frf f = frf_of(p, 0.01, 11, 6, 2300);
   TuneOptions of;
   of.structure = TuneStructure::pi;
   const TuneResult rf = tune_frf(f, of);
