@@ -22,6 +22,7 @@ constexpr double kPi = std::numbers::pi;
 constexpr double kTwoPi = 2 * std::numbers::pi;
 constexpr double kDeg = 180 / std::numbers::pi;
 constexpr double kAlphaMin = 0.005, kAlphaMax = 40;  // the range of fc over the integral corner searched
+constexpr double kBetaMax = 20;  // PID: the largest Td wc searched (a derivative filter corner down to fc N/20)
 
 // |z| without std::abs's guard against overflow (hypot): loop values here
 // are far from the double range's ends, and this is the search's inner loop
@@ -227,12 +228,11 @@ class Engine {
       // (the first pass has been through every point: L is in l_)
       double arg_change = 0;
       for (std::size_t k = 1; k < f_.size(); ++k) arg_change += std::arg((1.0 + l_[k]) / (1.0 + l_[k - 1]));
-      // a count far from a whole number of turns means the grid's ends do
-      // not show the loop's ends (with integrators, |L| not yet large at the
-      // bottom): no verdict, as frf_margins and closed_loop_stability refuse one
+      // No verdict, as frf_margins and closed_loop_stability refuse one, when
+      // the count is far from a whole number of turns (the grid's ends do not
+      // show the loop's: with integrators, |L| not yet large at the bottom) or
+      // when a measured band's top still has |L| near 1 or above.
       const double turns = (2 * arg_change - integrators_ * kPi) / kTwoPi;
-      // (a measured band whose top still has |L| near 1 or above shows only
-      // part of the plot: no verdict either, as frf_margins rules)
       c.fig.judged = std::abs(turns - std::round(turns)) < 0.15 && (!band_top_rule_ || mag(l_.back()) < 0.5);
       c.fig.stable = c.fig.judged && open_unstable_ == std::lround(turns);
     }
@@ -398,7 +398,7 @@ Candidate search(Engine& e, const TuneOptions& o, const std::vector<double>& fcs
         for (int sgn : {1, -1}) {
           Shape sh = cur.sh;
           if (d == 0) sh.alpha = std::clamp(sh.alpha * std::exp(sgn * step[d]), kAlphaMin, alpha_top);
-          else if (o.structure == TuneStructure::pid) sh.beta = std::clamp(sh.beta + sgn * step[d] * std::max(1.0, sh.beta), 0.0, 20.0);
+          else if (o.structure == TuneStructure::pid) sh.beta = std::clamp(sh.beta + sgn * step[d] * std::max(1.0, sh.beta), 0.0, kBetaMax);
           else sh.phi = std::clamp(sh.phi + sgn * step[d], 0.0, o.max_lead_deg / kDeg);
           if (sh.alpha == cur.sh.alpha && sh.beta == cur.sh.beta && sh.phi == cur.sh.phi) continue;
           Candidate c = top_feasible(e, sh, fcs, sl, cur.fc_hz);
