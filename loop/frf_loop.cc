@@ -86,31 +86,39 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
                   static_cast<int>(std::count_if(c.model.poles.begin(), c.model.poles.end(), [&](cplx q) {
                     return discrete ? std::abs(q - 1.0) < 1e-9 : std::abs(q) == 0;
                   }));
-    double delta = 0, prev = 0;
+    // from six decades below the band (the plant continued as at its lowest
+    // line, plant_below_band) up to lo, then over the band
+    const BelowBandWalk below = walk_below_band(nominal(lo), lo, o.plant_integrators, k,
+                                                [&c](double fr) { return c.model.response(fr); });
+    double delta = below.arg_change_rad, prev = 0;
     for (std::size_t i = 0; i < o.points; ++i) {
       const double fr = lo * std::pow(hi / lo, static_cast<double>(i) / static_cast<double>(o.points - 1));
       const double a = std::arg(1.0 + nominal(fr) * c.model.response(fr));
-      if (i > 0) {
-        double d = a - prev;
-        d -= 2 * std::numbers::pi * std::round(d / (2 * std::numbers::pi));
-        delta += d;
-      }
+      if (i > 0) delta += std::remainder(a - prev, 2 * std::numbers::pi);
       prev = a;
     }
     const double l_hi = std::abs(nominal(hi) * c.model.response(hi));
     const double z = -(2 * delta - k * std::numbers::pi) / (2 * std::numbers::pi);
-    if (l_hi < 0.5 && std::fabs(z - std::round(z)) < 0.15) {
+    if (l_hi < 0.5 && below.trusted && std::fabs(z - std::round(z)) < 0.15) {
       out.inferred_unstable = static_cast<int>(std::lround(z));
-      out.stability_note = "inferred from the Nyquist plot of the measured band, assuming an open-loop stable plant with " +
-                           std::to_string(k) + " integrator(s) below the band (declare the plant's with --plant-integrators)";
+      out.stability_note = "inferred from the Nyquist plot of the measured band, assuming an open-loop stable plant that "
+                           "continues below the band as at its lowest line, with " +
+                           std::to_string(k) + " integrator(s) in the loop (declare the plant's with --plant-integrators)";
+    } else if (!below.trusted) {
+      out.stability_note = "not inferred: at the bottom of the band (" + fmt_num(lo) + " Hz) the plant's phase is " +
+                           fmt_num(std::round(std::arg(nominal(lo)) * 1800 / std::numbers::pi) / 10) +
+                           " deg, more than 90 deg from the " + std::to_string(-90 * o.plant_integrators) + " deg of " +
+                           std::to_string(o.plant_integrators) +
+                           " declared integrator(s), and |L| is not large enough there for that not to matter (declare "
+                           "the plant's integrators with --plant-integrators, or measure lower)";
     } else if (l_hi >= 0.5) {
       out.stability_note = "not inferred: |L| = " + fmt_num(l_hi) + " at the top of the measured band (the loop gain must fall "
                            "below 1 inside the band for the Nyquist count)";
     } else {
-      out.stability_note = "not inferred: the Nyquist count over the measured band is " + fmt_num(std::round(z * 100) / 100) +
-                           " turns, not a whole number (with " + std::to_string(k) +
-                           " integrator(s) the loop gain must be large at the bottom of the band; |L| = " +
-                           fmt_num(std::abs(nominal(lo) * c.model.response(lo))) + " at " + fmt_num(lo) + " Hz)";
+      out.stability_note = "not inferred: the Nyquist count is " + fmt_num(std::round(z * 100) / 100) +
+                           " turns, not a whole number: below the band the loop does not behave as assumed (a plant "
+                           "continuing as at its lowest line, " + fmt_num(lo) + " Hz, with " +
+                           std::to_string(o.plant_integrators) + " integrator(s); declare them with --plant-integrators)";
     }
   }
 
@@ -141,6 +149,34 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
     out.crossover_sd_hz = sd(fc);
   }
   return out;
+}
+
+cplx plant_below_band(cplx p_lo, double f_lo_hz, int integrators, double f_hz) {
+  const double pi = std::numbers::pi;
+  const double asymptote = -integrators * pi / 2;
+  const double extra = std::remainder(std::arg(p_lo) - asymptote, 2 * pi);  // the lags' and delay's phase at f_lo
+  return std::polar(std::abs(p_lo) * std::pow(f_lo_hz / f_hz, integrators), asymptote + extra * f_hz / f_lo_hz);
+}
+
+BelowBandWalk walk_below_band(cplx p_lo, double f_lo_hz, int plant_integrators, int loop_integrators,
+                              const std::function<cplx(double)>& controller) {
+  const double pi = std::numbers::pi;
+  const double extra = std::remainder(std::arg(p_lo) + plant_integrators * pi / 2, 2 * pi);
+  BelowBandWalk w;
+  bool far = loop_integrators > 0;
+  double prev = 0;
+  // 40 points a decade: the controller's phase moves a few degrees at most
+  // between them (a PI's corner turns 90 deg over two decades)
+  for (int i = 0; i <= 240; ++i) {
+    const double f = f_lo_hz * std::pow(10.0, (i - 240) / 40.0);
+    const cplx l = (i == 240 ? p_lo : plant_below_band(p_lo, f_lo_hz, plant_integrators, f)) * controller(f);
+    far = far && std::abs(l) >= 2;
+    const double a = std::arg(1.0 + l);
+    if (i > 0) w.arg_change_rad += std::remainder(a - prev, 2 * pi);
+    prev = a;
+  }
+  w.trusted = std::fabs(extra) <= pi / 2 || far;
+  return w;
 }
 
 cplx margins_loop_value(const FrfMargins& fm, double f_hz) { return fm.loop(f_hz); }

@@ -3,9 +3,10 @@
 // Between lines the plant is interpolated in log-magnitude and unwrapped
 // phase, linearly in log frequency; the loop is only searched inside the
 // measured band (first to last reliable line). Stability cannot be proved
-// from a band of measured points: with the stated assumption of an
-// open-loop stable plant (and K integrators in plant and controller below
-// the band), the Nyquist count over the band is reported as an inference.
+// from a band of measured points: with the stated assumptions of an
+// open-loop stable plant with the declared integrators that continues below
+// the band as at its lowest line (plant_below_band), the Nyquist count from
+// f -> 0 to the top of the band is reported as an inference.
 //
 // Uncertainty: the FRF's per-line random error (rel_err = eps, the standard
 // deviation of each real component relative to |H|, Bendat & Piersol) is
@@ -17,6 +18,7 @@
 
 #include <cstdint>
 #include <functional>
+#include <vector>
 
 #include "ident/frf.h"
 #include "loop/margins.h"
@@ -50,6 +52,25 @@ struct FrfLoopOptions {
 };
 
 FrfMargins frf_margins(const ident::Frf& plant, const Controller& c, const FrfLoopOptions& o = {});
+
+// The plant below a measured band, for the Nyquist count only (never for a
+// margin): it continues as at the lowest line f_lo times the declared
+// integrators n, magnitude |P(f_lo)| (f_lo/f)^n, and phase going linearly in
+// f from the value measured at f_lo to -n 90 deg at f = 0, as the lags and
+// delay of a plant do at low frequency.
+cplx plant_below_band(cplx p_lo, double f_lo_hz, int integrators, double f_hz);
+// Walks 1 + C P below the band with that plant, from six decades below f_lo
+// up to f_lo; `controller` gives C at f_hz. Returns the change of arg(1 + L),
+// rad, and whether the walk may stand in for the unmeasured plant: its phase
+// at f_lo within 90 deg of what the declared integrators give (lags and a
+// delay), or else, when the loop has integrators, |L| >= 2 all along (a path
+// that far from -1 winds about it as the plant's own would, whatever its phase).
+struct BelowBandWalk {
+  double arg_change_rad = 0;
+  bool trusted = true;
+};
+BelowBandWalk walk_below_band(cplx p_lo, double f_lo_hz, int plant_integrators, int loop_integrators,
+                              const std::function<cplx(double)>& controller);
 
 // L at f from the interpolated FRF plant used by frf_margins (inside its band).
 cplx margins_loop_value(const FrfMargins& fm, double f_hz);
