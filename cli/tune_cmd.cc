@@ -151,10 +151,11 @@ TuneOutcome tune_plant(const TuneArgs& a, const std::string& plant_name, const f
         << fmt("%.3g", r.closest.ms_db) << " dB, crossover " << fmt("%.4g", r.closest.crossover_hz) << " Hz; "
         << shortfall(r.closest, o) << ")";
     else if (r.not_judged > 0 && r.frf_plant)
-      m << "none is judged stable: the Nyquist count over the measured band is not a whole number of turns ("
-        << r.not_judged << " candidates), as when the controller's integrator has not yet made |L| large at the bottom "
-           "of the band; measure lower frequencies, declare the plant's integrators (--plant-integrators), or tune "
-           "on the fitted model";
+      m << "none is judged stable (" << r.not_judged
+        << " candidates could not be judged as loop judges a measured loop: most often the plant's phase at the "
+           "bottom of the band is more than 90 deg from what the declared integrators give while |L| is not large "
+           "there, else |L| is not small at its top); declare the plant's integrators (--plant-integrators), "
+           "measure a wider band, or tune on the fitted model";
     else if (r.not_judged > 0)
       m << "none is judged stable: the Nyquist count over the frequency grid is not a whole number of turns ("
         << r.not_judged << " candidates)";

@@ -82,6 +82,11 @@ class Engine {
     integrators_ = integrators;
   }
   void set_band_top_rule(bool on) { band_top_rule_ = on; }
+  // a measured plant: its Nyquist count starts below the band, the plant
+  // continued there as at its lowest line (frf_loop.h, walk_below_band)
+  void set_below_band(cplx p_lo, double f_lo_hz, int plant_integrators) {
+    below_ = true, p_lo_ = p_lo, f_lo_hz_ = f_lo_hz, plant_integrators_ = plant_integrators;
+  }
   const std::vector<double>& grid() const { return f_; }
 
   cplx s_of(double f_hz) const {
@@ -227,13 +232,22 @@ class Engine {
       // Nyquist: Z = P - (2 D - K pi)/(2 pi), D the change of arg(1 + L) over the grid (stability.h)
       // (the first pass has been through every point: L is in l_)
       double arg_change = 0;
+      bool trusted = true;
+      if (below_) {
+        const BelowBandWalk w = walk_below_band(p_lo_, f_lo_hz_, plant_integrators_, integrators_, [&](double f) {
+          const cplx s = s_of(f);
+          return c.kp * unit.at(s.imag()) * notch_factor(s) * std::polar(1.0, -kTwoPi * f * o_.compute_delay_s);
+        });
+        arg_change = w.arg_change_rad, trusted = w.trusted;
+      }
       for (std::size_t k = 1; k < f_.size(); ++k) arg_change += std::arg((1.0 + l_[k]) / (1.0 + l_[k - 1]));
       // No verdict, as frf_margins and closed_loop_stability refuse one, when
       // the count is far from a whole number of turns (the grid's ends do not
-      // show the loop's: with integrators, |L| not yet large at the bottom) or
-      // when a measured band's top still has |L| near 1 or above.
+      // show the loop's), when below a measured band the continued plant
+      // cannot stand in for the real one, or when the band's top still has
+      // |L| near 1 or above.
       const double turns = (2 * arg_change - integrators_ * kPi) / kTwoPi;
-      c.fig.judged = std::abs(turns - std::round(turns)) < 0.15 && (!band_top_rule_ || mag(l_.back()) < 0.5);
+      c.fig.judged = trusted && std::abs(turns - std::round(turns)) < 0.15 && (!band_top_rule_ || mag(l_.back()) < 0.5);
       c.fig.stable = c.fig.judged && open_unstable_ == std::lround(turns);
     }
     c.fig.ms_db = 20 * std::log10(ms);
@@ -277,6 +291,10 @@ class Engine {
   std::vector<cplx> l_;  // the loop of the candidate being evaluated
   int open_unstable_ = 0, integrators_ = 1;
   bool band_top_rule_ = false;
+  bool below_ = false;
+  cplx p_lo_{};
+  double f_lo_hz_ = 0;
+  int plant_integrators_ = 0;
   std::size_t evaluated_ = 0;
 };
 
@@ -776,6 +794,7 @@ TuneResult tune_frf(const ident::Frf& frf, const TuneOptions& o) {
   Engine e(o, plant);
   e.set_nyquist(0, o.plant_integrators + 1);
   e.set_band_top_rule(true);
+  e.set_below_band(plant(lo), lo, o.plant_integrators);
   e.set_grid(grid, unc_at);
   const auto verify = [&](TuneResult& r, std::vector<double>& where) {
     reread(r);
