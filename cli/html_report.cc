@@ -2,11 +2,11 @@
 
 #include <algorithm>
 #include <cmath>
-#include <memory>
 #include <complex>
 #include <cstdio>
 #include <functional>
 #include <limits>
+#include <memory>
 #include <numbers>
 #include <sstream>
 

@@ -17,7 +17,6 @@ const char* const kCaution =
     "damage it or hurt people: limit the level, keep a way to stop, follow the machine's safety\n"
     "rules and defer to licensed practice. benchid recommends nothing it has not computed.\n";
 
-
 std::string frf_text_report(const ident::Frf& f, const std::string& command_line, std::size_t rows) {
   std::ostringstream s;
   const std::time_t now = std::time(nullptr);

@@ -88,8 +88,10 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
                   }));
     // from six decades below the band (the plant continued as at its lowest
     // line, plant_below_band) up to lo, then over the band
-    const BelowBandWalk below = walk_below_band(nominal(lo), lo, o.plant_integrators, k,
-                                                [&c](double fr) { return c.model.response(fr); });
+    const BelowBand bb = below_band(nominal(lo), lo, o.plant_integrators);
+    std::vector<cplx> below_loop;
+    for (std::size_t i = 0; i < bb.f_hz.size(); ++i) below_loop.push_back(bb.plant[i] * c.model.response(bb.f_hz[i]));
+    const BelowBandWalk below = walk_below_band(bb, below_loop, k);
     double delta = below.arg_change_rad, prev = 0;
     for (std::size_t i = 0; i < o.points; ++i) {
       const double fr = lo * std::pow(hi / lo, static_cast<double>(i) / static_cast<double>(o.points - 1));
@@ -151,31 +153,42 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
   return out;
 }
 
+namespace {
+// the lags' and delay's phase at f_lo: the plant's phase there less the integrators', rad
+double extra_phase(cplx p_lo, int integrators) {
+  return std::remainder(std::arg(p_lo) + integrators * std::numbers::pi / 2, 2 * std::numbers::pi);
+}
+}  // namespace
+
 cplx plant_below_band(cplx p_lo, double f_lo_hz, int integrators, double f_hz) {
-  const double pi = std::numbers::pi;
-  const double asymptote = -integrators * pi / 2;
-  const double extra = std::remainder(std::arg(p_lo) - asymptote, 2 * pi);  // the lags' and delay's phase at f_lo
-  return std::polar(std::abs(p_lo) * std::pow(f_lo_hz / f_hz, integrators), asymptote + extra * f_hz / f_lo_hz);
+  return std::polar(std::abs(p_lo) * std::pow(f_lo_hz / f_hz, integrators),
+                    -integrators * std::numbers::pi / 2 + extra_phase(p_lo, integrators) * f_hz / f_lo_hz);
 }
 
-BelowBandWalk walk_below_band(cplx p_lo, double f_lo_hz, int plant_integrators, int loop_integrators,
-                              const std::function<cplx(double)>& controller) {
-  const double pi = std::numbers::pi;
-  const double extra = std::remainder(std::arg(p_lo) + plant_integrators * pi / 2, 2 * pi);
-  BelowBandWalk w;
-  bool far = loop_integrators > 0;
-  double prev = 0;
+BelowBand below_band(cplx p_lo, double f_lo_hz, int plant_integrators) {
+  BelowBand b;
   // 40 points a decade: the controller's phase moves a few degrees at most
   // between them (a PI's corner turns 90 deg over two decades)
   for (int i = 0; i <= 240; ++i) {
     const double f = f_lo_hz * std::pow(10.0, (i - 240) / 40.0);
-    const cplx l = (i == 240 ? p_lo : plant_below_band(p_lo, f_lo_hz, plant_integrators, f)) * controller(f);
-    far = far && std::abs(l) >= 2;
-    const double a = std::arg(1.0 + l);
-    if (i > 0) w.arg_change_rad += std::remainder(a - prev, 2 * pi);
+    b.f_hz.push_back(f);
+    b.plant.push_back(i == 240 ? p_lo : plant_below_band(p_lo, f_lo_hz, plant_integrators, f));
+  }
+  b.phase_near_asymptote = std::fabs(extra_phase(p_lo, plant_integrators)) <= std::numbers::pi / 2;
+  return b;
+}
+
+BelowBandWalk walk_below_band(const BelowBand& b, const std::vector<cplx>& loop, int loop_integrators) {
+  BelowBandWalk w;
+  bool far = loop_integrators > 0;
+  double prev = 0;
+  for (std::size_t i = 0; i < loop.size(); ++i) {
+    far = far && std::abs(loop[i]) >= 2;
+    const double a = std::arg(1.0 + loop[i]);
+    if (i > 0) w.arg_change_rad += std::remainder(a - prev, 2 * std::numbers::pi);
     prev = a;
   }
-  w.trusted = std::fabs(extra) <= pi / 2 || far;
+  w.trusted = b.phase_near_asymptote || far;
   return w;
 }
 

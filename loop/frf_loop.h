@@ -59,18 +59,27 @@ FrfMargins frf_margins(const ident::Frf& plant, const Controller& c, const FrfLo
 // f from the value measured at f_lo to -n 90 deg at f = 0, as the lags and
 // delay of a plant do at low frequency.
 cplx plant_below_band(cplx p_lo, double f_lo_hz, int integrators, double f_hz);
-// Walks 1 + C P below the band with that plant, from six decades below f_lo
-// up to f_lo; `controller` gives C at f_hz. Returns the change of arg(1 + L),
-// rad, and whether the walk may stand in for the unmeasured plant: its phase
-// at f_lo within 90 deg of what the declared integrators give (lags and a
-// delay), or else, when the loop has integrators, |L| >= 2 all along (a path
-// that far from -1 winds about it as the plant's own would, whatever its phase).
+// The points the count walks below the band: six decades below f_lo up to
+// f_lo, 40 a decade, with the plant continued there (the last point is the
+// lowest line itself), and whether the plant's phase at f_lo lies within
+// 90 deg of what the declared integrators give (lags and a delay).
+struct BelowBand {
+  std::vector<double> f_hz;
+  std::vector<cplx> plant;
+  bool phase_near_asymptote = true;
+};
+BelowBand below_band(cplx p_lo, double f_lo_hz, int plant_integrators);
+
+// The change of arg(1 + L), rad, along those points (`loop`: L at each),
+// and whether the walk may stand in for the unmeasured plant: its phase near
+// the asymptote, or else, when the loop has integrators, |L| >= 2 all along
+// (a path that far from -1 winds about it as the plant's own would, whatever
+// its phase).
 struct BelowBandWalk {
   double arg_change_rad = 0;
   bool trusted = true;
 };
-BelowBandWalk walk_below_band(cplx p_lo, double f_lo_hz, int plant_integrators, int loop_integrators,
-                              const std::function<cplx(double)>& controller);
+BelowBandWalk walk_below_band(const BelowBand& b, const std::vector<cplx>& loop, int loop_integrators);
 
 // L at f from the interpolated FRF plant used by frf_margins (inside its band).
 cplx margins_loop_value(const FrfMargins& fm, double f_hz);

@@ -28,6 +28,9 @@ constexpr double kBetaMax = 20;  // PID: the largest Td wc searched (a derivativ
 // are far from the double range's ends, and this is the search's inner loop
 inline double mag(cplx z) { return std::sqrt(z.real() * z.real() + z.imag() * z.imag()); }
 
+// A lead of phase phi (rad) centred on wc has its zero at wc/r and pole at wc r.
+double lead_spread(double phi) { return std::sqrt((1 + std::sin(phi)) / (1 - std::sin(phi))); }
+
 std::string num(double v) {
   char b[40];
   std::snprintf(b, sizeof b, "%.6g", v);
@@ -83,9 +86,11 @@ class Engine {
   }
   void set_band_top_rule(bool on) { band_top_rule_ = on; }
   // a measured plant: its Nyquist count starts below the band, the plant
-  // continued there as at its lowest line (frf_loop.h, walk_below_band)
+  // continued there as at its lowest line (frf_loop.h, below_band)
   void set_below_band(cplx p_lo, double f_lo_hz, int plant_integrators) {
-    below_ = true, p_lo_ = p_lo, f_lo_hz_ = f_lo_hz, plant_integrators_ = plant_integrators;
+    below_ = true;
+    bb_ = below_band(p_lo, f_lo_hz, plant_integrators);
+    if (!f_.empty()) rebuild();
   }
   const std::vector<double>& grid() const { return f_; }
 
@@ -93,9 +98,11 @@ class Engine {
     const double w = kTwoPi * f_hz;
     return o_.dt_s > 0 ? cplx(0, 2 / o_.dt_s * std::tan(w * o_.dt_s / 2)) : cplx(0, w);
   }
-  cplx fixed(double f_hz) const {
-    return plant_(f_hz) * notch_factor(s_of(f_hz)) * std::polar(1.0, -kTwoPi * f_hz * o_.compute_delay_s);
+  // what multiplies the controller besides the plant: notches and computation delay
+  cplx extras(double f_hz) const {
+    return notch_factor(s_of(f_hz)) * std::polar(1.0, -kTwoPi * f_hz * o_.compute_delay_s);
   }
+  cplx fixed(double f_hz) const { return plant_(f_hz) * extras(f_hz); }
   // The controller with kp = 1, its constants worked out once per candidate.
   // s is always on the imaginary axis (j w, or Tustin's j (2/T) tan(w T/2)),
   // so each factor is written out in real arithmetic for s = j w_s: the
@@ -122,10 +129,7 @@ class Engine {
     Unit u;
     u.wi = wc / sh.alpha;
     if (o_.structure == TuneStructure::pid && sh.beta > 0) u.td = sh.beta / wc, u.tf = u.td / o_.derivative_filter;
-    if (o_.structure == TuneStructure::pi_lead && sh.phi > 0) {
-      const double a = (1 + std::sin(sh.phi)) / (1 - std::sin(sh.phi));
-      u.z = wc / std::sqrt(a), u.p = wc * std::sqrt(a);
-    }
+    if (o_.structure == TuneStructure::pi_lead && sh.phi > 0) u.z = wc / lead_spread(sh.phi), u.p = wc * lead_spread(sh.phi);
     return u;
   }
 
@@ -234,10 +238,8 @@ class Engine {
       double arg_change = 0;
       bool trusted = true;
       if (below_) {
-        const BelowBandWalk w = walk_below_band(p_lo_, f_lo_hz_, plant_integrators_, integrators_, [&](double f) {
-          const cplx s = s_of(f);
-          return c.kp * unit.at(s.imag()) * notch_factor(s) * std::polar(1.0, -kTwoPi * f * o_.compute_delay_s);
-        });
+        for (std::size_t i = 0; i < below_l_.size(); ++i) below_l_[i] = c.kp * unit.at(below_ws_[i]) * below_g_[i];
+        const BelowBandWalk w = walk_below_band(bb_, below_l_, integrators_);
         arg_change = w.arg_change_rad, trusted = w.trusted;
       }
       for (std::size_t k = 1; k < f_.size(); ++k) arg_change += std::arg((1.0 + l_[k]) / (1.0 + l_[k - 1]));
@@ -272,6 +274,14 @@ class Engine {
       g_[k] = fixed(f_[k]);
       unc_[k] = unc_fn_ ? unc_fn_(f_[k]) : 0.0;
     }
+    if (below_) {
+      below_ws_.clear(), below_g_.clear();
+      for (std::size_t i = 0; i < bb_.f_hz.size(); ++i) {
+        below_ws_.push_back(s_of(bb_.f_hz[i]).imag());
+        below_g_.push_back(bb_.plant[i] * extras(bb_.f_hz[i]));
+      }
+      below_l_.resize(below_g_.size());
+    }
   }
   cplx notch_factor(cplx s) const {
     cplx r = 1;
@@ -292,9 +302,9 @@ class Engine {
   int open_unstable_ = 0, integrators_ = 1;
   bool band_top_rule_ = false;
   bool below_ = false;
-  cplx p_lo_{};
-  double f_lo_hz_ = 0;
-  int plant_integrators_ = 0;
+  BelowBand bb_;                       // below a measured band: the points and the continued plant
+  std::vector<double> below_ws_;       // there: Im(s), rad/s
+  std::vector<cplx> below_g_, below_l_;  // there: the plant with extras, and the candidate's loop
   std::size_t evaluated_ = 0;
 };
 
@@ -447,11 +457,8 @@ void fill_parameters(const Candidate& c, const TuneOptions& o, TuneResult& r) {
     r.kd = c.kp * c.sh.beta / wc;
     r.tf_s = c.sh.beta / wc / o.derivative_filter;
   }
-  if (o.structure == TuneStructure::pi_lead && c.sh.phi > 0) {
-    const double a = (1 + std::sin(c.sh.phi)) / (1 - std::sin(c.sh.phi));
-    r.lead_zero_hz = c.fc_hz / std::sqrt(a);
-    r.lead_pole_hz = c.fc_hz * std::sqrt(a);
-  }
+  if (o.structure == TuneStructure::pi_lead && c.sh.phi > 0)
+    r.lead_zero_hz = c.fc_hz / lead_spread(c.sh.phi), r.lead_pole_hz = c.fc_hz * lead_spread(c.sh.phi);
   r.integral_gain = r.ki;
 }
 
