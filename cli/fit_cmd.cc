@@ -16,6 +16,7 @@
 #include "fit/model_json.h"
 #include "ident/error.h"
 #include "ident/frf_csv.h"
+#include "ident/trusted.h"
 
 namespace benchid::cli {
 
@@ -56,6 +57,7 @@ fit::FitOptions fit_options(const FitArgs& a) {
   }
   if (!a.band.empty()) {
     const Band b = parse_band(a.band, "--band");
+    o.band_given = true;
     o.band_lo_hz = b.lo_hz;
     o.band_hi_hz = b.hi_hz;
   }
@@ -169,8 +171,8 @@ void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline) {
   c->add_option("--max-order", a.max_order, "Order sweep limit for --order auto (default 20)");
   c->add_option("--delay", a.delay, std::string("Pure delay in s, or auto: estimated from the phase slope and refined "
                 "with the fit (default ") + (pipeline ? "auto)" : "0)"));
-  c->add_option("--band", a.band, pipeline ? "Fit only lines in LO:HI, Hz (default: the trusted band, see the report)"
-                                           : "Fit only lines in LO:HI, Hz (default: all lines)");
+  c->add_option("--band", a.band, "Fit only lines in LO:HI, Hz (default: the trusted band, " +
+                ident::trusted_band_rule() + ")");
   c->add_option("--integrators", a.integrators, "Poles fixed at the origin, e.g. 1 for voltage to position of a "
                 "motor (default 0)");
   c->add_option("--weighting", a.weighting, "variance (1/standard error from the FRF's rel_err, floored at a tenth "

@@ -19,6 +19,7 @@
 #include "ident/error.h"
 #include "ident/json_file.h"
 #include "ident/frf_csv.h"
+#include "ident/trusted.h"
 #include "loop/controller.h"
 #include "loop/frf_loop.h"
 #include "loop/margins.h"
@@ -137,6 +138,7 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
     fo.draws = a.draws;
     if (!a.band.empty()) {
       const Band b = parse_band(a.band, "--band");
+      fo.band_given = true;
       fo.band_lo_hz = b.lo_hz;
       fo.band_hi_hz = b.hi_hz;
     }
@@ -216,8 +218,8 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
   auto mark = [](bool ok) { return ok ? "pass" : "FAIL"; };
   auto pm_unc = [&](double v) { return std::isfinite(v) ? " +- " + fmt("%.2g", v) : std::string(); };
   if (frf_plant)
-    t << "  plant: measured FRF (" << fm.lines << " lines used, " << fm.left_out
-      << " left out as unreliable or with rel_err > 0.25; margins within the band of the lines used)"
+    t << "  plant: measured FRF (" << fm.lines << " trusted lines used, " << fm.left_out
+      << " untrusted left out, in " << fm.band_note << "; margins within it)"
       << (fm.draws ? ", +- is 1 s.d. from " + std::to_string(fm.draws) + " Monte Carlo draws of the per-line random error" : "")
       << "\n";
   const std::string above = "unknown: |L| = " + fmt("%.3g", l_top) + " at the top of the measured band (" +
@@ -472,7 +474,7 @@ void add_loop_options(CLI::App* c, LoopArgs& a, bool pipeline) {
   if (!pipeline) {
     c->add_option("--plant-integrators", a.plant_integrators, "FRF plant: integrators of the plant below the measured "
                   "band, for the Nyquist inference (default 0)");
-    c->add_option("--band", a.band, "FRF plant: use only lines in LO:HI, Hz (default: all usable lines)");
+    c->add_option("--band", a.band, "FRF plant: use only trusted lines in LO:HI, Hz (default: the trusted band, " + ident::trusted_band_rule() + ")");
   }
   c->add_option("--draws", a.draws, "FRF plant: Monte Carlo draws of the per-line random error for the +- figures "
                 "(default 200; 0: none)");

@@ -33,13 +33,6 @@ struct ReportTimes {
   double total() const { return frf_s + fit_s + replay_s + loop_s + report_s + write_s; }
 };
 
-// The band `report` fits when no --band is given: from the first trusted line
-// (above the coherence bound, random error <= max_rel_err) up to the last
-// trusted line below which 90 % of the lines, and 12 of the last 16, are
-// trusted. Above it a recording usually has no excitation or no output left.
-constexpr double kTrustedRelErr = 0.2;  // phase s.d. about 11 deg
-Band trusted_band(const ident::Frf& f, double max_rel_err = kTrustedRelErr);
-
 // The fit stage of the pipeline: options o (from fit_options) in the trusted
 // band unless a.band is given; NoResult when there is no band or no
 // convergence. band_note (optional) says how the band was chosen.

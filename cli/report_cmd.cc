@@ -17,9 +17,11 @@
 #include "cli/report.h"
 #include "cli/output.h"
 #include "cli/stages.h"
+#include "ident/trusted.h"
 #include "fit/model_json.h"
 #include "fit/replay.h"
 #include "ident/error.h"
+#include "ident/trusted.h"
 #include "ident/frf_csv.h"
 #include "ident/record.h"
 #include "loop/controller.h"
@@ -53,39 +55,13 @@ auto stage(const char* name, F&& f) {
 
 }  // namespace
 
-Band trusted_band(const ident::Frf& f, double max_rel_err) {
-  Band b;
-  std::vector<std::uint8_t> ok;  // trusted, line by line from the first trusted one
-  std::size_t good = 0, recent_good = 0;  // in all of ok, and in its last 16
-  for (std::size_t i = 0; i < f.size(); ++i) {
-    const bool t = f.reliable[i] && std::isfinite(f.rel_err[i]) && f.rel_err[i] <= max_rel_err;
-    if (ok.empty() && !t) continue;
-    if (ok.empty()) b.lo_hz = f.freq_hz[i];
-    ok.push_back(t);
-    good += t, recent_good += t;
-    if (ok.size() > 16) recent_good -= ok[ok.size() - 17];
-    const std::size_t recent = std::min<std::size_t>(ok.size(), 16);
-    if (t && good >= 0.9 * static_cast<double>(ok.size()) && 4 * recent_good >= 3 * recent) b.hi_hz = f.freq_hz[i];
-  }
-  return b;
-}
-
 fit::FrfFit fit_pipeline(const ident::Frf& frf, const FitArgs& a, fit::FitOptions o, std::string* band_note) {
-  std::string note = a.band.empty() ? "" : a.band + " Hz (given)";
-  if (a.band.empty()) {
-    const Band b = trusted_band(frf);
-    if (!(b.hi_hz > b.lo_hz))
-      throw NoResult("no band of trusted lines to fit (coherence under its bound or random error above " +
-                     fmt_num(100 * kTrustedRelErr) + " % almost everywhere); check the channels and the excitation");
-    o.band_lo_hz = b.lo_hz;
-    o.band_hi_hz = b.hi_hz;
-    note = fmt_num(b.lo_hz) + " to " + fmt_num(b.hi_hz) + " Hz, chosen: up to the last line below which 90 % of "
-           "lines (and 12 of the last 16) are above the coherence bound with a random error of at most " +
-           fmt_num(100 * kTrustedRelErr) + " % (--band to choose)";
-  }
+  if (!o.band_given && !ident::trusted_band(frf).found())
+    throw NoResult("no band of trusted lines to fit (" + ident::trusted_band_rule() +
+                   "): none found; check the channels and the excitation");
   fit::FrfFit f = fit::fit_frf(frf, o);
   require_converged(f);
-  if (band_note) *band_note = note;
+  if (band_note) *band_note = f.band_note;
   return f;
 }
 

@@ -13,6 +13,7 @@
 #include "cli/tune_stage.h"
 #include "fit/model_json.h"
 #include "ident/error.h"
+#include "ident/trusted.h"
 #include "ident/frf_csv.h"
 #include "ident/json_file.h"
 #include "loop/controller.h"
@@ -124,6 +125,11 @@ loop::TuneOptions tune_options(const TuneArgs& a) {
     if (!f || !w || !d) throw InputError("--notch '" + n + "': expected f=HZ,width=HZ,depth=DB (all three) or auto");
     o.notches.push_back(s);
   }
+  if (!a.band.empty()) {
+    const Band b = parse_band(a.band, "--band");
+    o.frf_band_given = true;
+    o.frf_band_lo_hz = b.lo_hz, o.frf_band_hi_hz = b.hi_hz;
+  }
   return o;
 }
 
@@ -174,6 +180,7 @@ TuneOutcome tune_plant(const TuneArgs& a, const std::string& plant_name, const f
   la.gm_min = o.gm_min_db;
   la.ms_max_db = o.ms_max_db;
   la.plant_integrators = o.plant_integrators;
+  la.band = a.band;
   la.draws = 0;
   const LoopAnalysis lp = analyse_loop(la, plant_name, model, frf, band_lo_hz, band_hi_hz);
 
@@ -280,6 +287,8 @@ void add_tune_options(CLI::App* c, TuneArgs& a, bool pipeline) {
     c->add_option("--gm-min", a.gm_min, "Gain margin target, dB (default 10, common practice)");
     c->add_option("--ms-max", a.ms_max_db, "Peak sensitivity target, dB (default 6: Ms <= 2, Astrom & Murray)");
     c->add_option("--plant-integrators", a.plant_integrators, "FRF plant: integrators below the measured band (default 0)");
+    c->add_option("--band", a.band, "FRF plant: use only trusted lines in LO:HI, Hz (default: the trusted band, " +
+                  ident::trusted_band_rule() + ")");
   }
   c->add_option("--objective", a.objective, "integral: the highest integral gain ki, i.e. the smallest integrated error "
                 "after a load step (MIGO, Astrom & Hagglund); crossover: the highest gain crossover (loop shaping) "

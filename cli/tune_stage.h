@@ -22,6 +22,7 @@ struct TuneArgs {
   double dt_s = 0, compute_delay_s = 0;
   double error_sigmas = loop::TuneOptions{}.error_sigmas;
   int plant_integrators = 0;
+  std::string band;  // FRF plant: LO:HI, Hz (empty: its trusted band)
   double derivative_filter = loop::TuneOptions{}.derivative_filter;
   double integral_ratio = loop::TuneOptions{}.integral_ratio;
   double max_lead_deg = loop::TuneOptions{}.max_lead_deg;

@@ -9,6 +9,7 @@
 #include <sstream>
 
 #include "ident/error.h"
+#include "ident/trusted.h"
 #include "ident/work_pool.h"
 
 namespace benchid::fit {
@@ -103,12 +104,20 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     out.weighting = Weighting::relative;
     out.warnings.push_back("the FRF carries no rel_err: weighting relative (1/|H|) instead of by variance");
   }
-  // lines: in band, reliable, usable
+  if (frf.size() == 0) throw InputError("the FRF has no lines");
+  ident::ChosenBand band = ident::choose_band(frf, o.band_given, o.band_lo_hz, o.band_hi_hz);
+  if (!band.found()) {  // every line, so that what is wrong with them is said below
+    band.lo_hz = frf.freq_hz.front(), band.hi_hz = frf.freq_hz.back() * (1 + 1e-12);
+    band.note = "all lines (no trusted band)";
+  }
+  out.band_lo_hz = band.lo_hz, out.band_hi_hz = band.hi_hz, out.band_note = band.note;
+  const auto outside = [&](double f) { return f < band.lo_hz || f > band.hi_hz; };
+  // lines: in band, trusted, usable
   std::vector<std::size_t> use;
   std::size_t in_band = 0;
   for (std::size_t k = 0; k < frf.size(); ++k) {
     const double f = frf.freq_hz[k];
-    if ((o.band_lo_hz > 0 && f < o.band_lo_hz) || (o.band_hi_hz > 0 && f > o.band_hi_hz)) {
+    if (outside(f)) {
       ++out.left_out_band;
       continue;
     }
@@ -118,7 +127,7 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
       out.warnings.push_back("the DC line is left out: a model with integrators is infinite at 0 Hz");
       continue;
     }
-    const bool ok = (frf.reliable.empty() || frf.reliable[k]) && std::abs(frf.h[k]) > 0 &&
+    const bool ok = ident::is_trusted(frf, k) && std::abs(frf.h[k]) > 0 &&
                     (out.weighting != Weighting::inverse_variance || std::isfinite(frf.rel_err[k]));
     if (!ok) {
       ++out.left_out_unreliable;
@@ -127,11 +136,13 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     use.push_back(k);
   }
   if (in_band == 0)
-    throw InputError("band " + fmt_num(o.band_lo_hz) + ":" + fmt_num(o.band_hi_hz) + " Hz holds no line of the FRF (" +
+    throw InputError("band " + fmt_num(band.lo_hz) + ":" + fmt_num(band.hi_hz) + " Hz holds no line of the FRF (" +
                      fmt_num(frf.freq_hz.front()) + " to " + fmt_num(frf.freq_hz.back()) + " Hz)");
   if (use.empty())
-    throw InputError("all " + std::to_string(in_band) + " lines in the band are flagged unreliable (coherence at or "
-                     "below the zero-coherence bound); expected a better measurement or another band");
+    throw InputError("all " + std::to_string(in_band) + " lines in the band " + fmt_num(band.lo_hz) + " to " +
+                     fmt_num(band.hi_hz) + " Hz are untrusted (coherence at or below the zero-coherence bound, not "
+                     "excited, or a random error above " + fmt_num(100 * ident::TrustOptions{}.max_rel_err) +
+                     " %); expected a better measurement or another band");
   // Pure noise: with unrelated input and output, a fraction alpha = 1 -
   // confidence of the lines still passes the zero-coherence bound by chance,
   // scattered. When the reliable lines are no more than chance gives
@@ -145,7 +156,7 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     std::size_t reliable = 0, run = 0, longest = 0;
     for (std::size_t k = 0; k < frf.size(); ++k) {
       const double f = frf.freq_hz[k];
-      if ((o.band_lo_hz > 0 && f < o.band_lo_hz) || (o.band_hi_hz > 0 && f > o.band_hi_hz)) continue;
+      if (outside(f)) continue;
       run = frf.reliable[k] ? run + 1 : 0;
       reliable += frf.reliable[k];
       longest = std::max(longest, run);
@@ -237,8 +248,9 @@ std::string fit_summary(const FrfFit& f, const std::string& source) {
   const RationalModel& m = r.model;
   std::ostringstream s;
   s << "benchid fit: " << source << ", " << f.data.freq_hz.size() << " lines " << num(f.data.freq_hz.front()) << " to "
-    << num(f.data.freq_hz.back(), 5) << " Hz (left out: " << f.left_out_unreliable << " unreliable, " << f.left_out_band
+    << num(f.data.freq_hz.back(), 5) << " Hz (left out: " << f.left_out_unreliable << " untrusted, " << f.left_out_band
     << " outside the band); weighting " << weighting_name(f.weighting) << "\n";
+  if (!f.band_note.empty()) s << "  band " << f.band_note << "\n";
   if (!f.sweep.empty()) {
     s << "  order sweep:  order   chi2/dof   NRMSE %   worst dB   Akaike      converged\n";
     char b[160];

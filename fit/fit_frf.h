@@ -35,7 +35,8 @@ struct FitOptions {
   int max_order = 20;           // order sweep limit
   bool auto_delay = false;
   Weighting weighting = Weighting::inverse_variance;
-  double band_lo_hz = 0, band_hi_hz = 0;  // 0: no limit
+  bool band_given = false;      // false: the trusted band of the FRF (ident/trusted.h)
+  double band_lo_hz = 0, band_hi_hz = 0;  // band_given: the lines fitted, Hz (hi 0: to the top)
   double error_floor = 0.1;     // variance weights: eps floored at this fraction of the median
   bool polynomial = false;      // Sanathanan-Koerner on the polynomial form instead of vector fitting
   int threads = 0;              // order "auto": orders fitted at once on separate threads; 0 = one per
@@ -53,6 +54,8 @@ struct FrfFit {
   FitResult result;
   FitData data;
   std::size_t left_out_unreliable = 0, left_out_band = 0;
+  double band_lo_hz = 0, band_hi_hz = 0;  // the band fitted
+  std::string band_note;                  // which band, and how it was chosen
   Weighting weighting = Weighting::inverse_variance;
   std::vector<OrderRow> sweep;   // order "auto" only
   std::string order_reason;      // how the order was chosen

@@ -10,6 +10,7 @@
 #include <sstream>
 
 #include "ident/error.h"
+#include "ident/trusted.h"
 
 namespace benchid::ident {
 
@@ -46,6 +47,7 @@ const char* estimator_name(Estimator e) {
 
 void validate(const FrfOptions& o) {
   validate(o.welch);
+  validate(o.trust);
   if (!(o.resolution_hz >= 0) || !std::isfinite(o.resolution_hz))
     throw InputError("resolution = " + num(o.resolution_hz) + " Hz: must be a positive frequency");
   if (!(o.band_lo_hz >= 0) || !(o.band_hi_hz >= 0) || !std::isfinite(o.band_lo_hz) || !std::isfinite(o.band_hi_hz))
@@ -154,11 +156,10 @@ void check_resolution_bias(Frf& f) {
   }
 }
 
-void finish_common(Frf& f) {
+// `excited`: the lines the excitation reached (empty: all of them), see trusted.h
+void finish_common(Frf& f, const std::vector<std::uint8_t>& excited, const TrustOptions& trust) {
   f.coherence_bound = zero_coherence_bound(f.effective_averages, f.confidence);
-  f.reliable.resize(f.size());
-  for (std::size_t i = 0; i < f.size(); ++i)
-    f.reliable[i] = f.effective_averages > 1 && f.coherence[i] > f.coherence_bound;
+  mark_trusted(f, excited, trust);
   if (f.effective_averages <= 1)
     f.warnings.push_back("only one average: coherence is 1 by construction and the error is "
                          "unknown; use a shorter segment or more periods");
@@ -182,6 +183,7 @@ Frf frf_from_spectra(const CrossSpectra& cs, std::size_t u, std::size_t y, int r
   f.confidence = o.confidence;
   f.loop_gain = o.loop_gain;
   const double nd = cs.effective_averages;
+  std::vector<double> g_exc;  // autospectrum of the exciting signal, per line
   for (std::size_t k = 1; k < cs.bins(); ++k) {
     const double fr = cs.freq_hz(k);
     if (!in_band(fr, o)) continue;
@@ -220,8 +222,19 @@ Frf frf_from_spectra(const CrossSpectra& cs, std::size_t u, std::size_t y, int r
     f.guu.push_back(guu);
     f.gyy.push_back(gyy);
     f.guy.push_back(guy);
+    g_exc.push_back(r >= 0 ? cs.g(static_cast<std::size_t>(r), static_cast<std::size_t>(r), k).real() : guu);
   }
-  finish_common(f);
+  // in a Welch estimate a line passes the coherence bound by chance where
+  // nothing excited it; the exciting signal is the reference when there is one
+  const std::vector<std::uint8_t> excited = excited_lines(f.freq_hz, g_exc, o.trust);
+  finish_common(f, excited, o.trust);
+  std::size_t not_excited = 0;
+  for (std::uint8_t e : excited) not_excited += e ? 0 : 1;
+  if (not_excited > 0)
+    f.warnings.push_back(std::to_string(not_excited) + " lines not excited (the " +
+                         std::string(r >= 0 ? "reference" : "input") + "'s spectrum there more than " +
+                         fmt_num(o.trust.local_drop_db) + " dB below its level within an octave, or " +
+                         fmt_num(o.trust.global_drop_db) + " dB below its strongest): flagged unreliable");
   return f;
 }
 
@@ -288,9 +301,7 @@ Frf frf_from_periodic(const PeriodicSpectra& ps, std::size_t u, std::size_t y, c
     f.gyy.push_back(pyy * scale);
     f.guy.push_back(puy * scale);
   }
-  finish_common(f);
-  if (ps.periods > 1)
-    for (std::size_t i = 0; i < f.size(); ++i) f.reliable[i] = f.coherence[i] > f.coherence_bound;
+  finish_common(f, {}, o.trust);  // every line kept is excited
   if (unexcited > 0)
     f.warnings.push_back(std::to_string(unexcited) + " lines left out as not excited" +
                          (o.lines.empty() ? " (input below -80 dB of the strongest line or within 10 dB of its noise)"
@@ -588,8 +599,12 @@ std::string summary(const Frf& f) {
   if (f.estimator == Estimator::stepped)
     s << below << " points with rel_err above the limit (flagged unreliable)";
   else
-    s << below << " lines at or below the " << num(f.confidence * 100, 3) << " % zero-coherence bound "
-      << num(f.coherence_bound, 3) << " (flagged unreliable)";
+    s << below << " lines untrusted (at or below the " << num(f.confidence * 100, 3) << " % zero-coherence bound "
+      << num(f.coherence_bound, 3) << ", not excited, or a random error above "
+      << num(100 * TrustOptions{}.max_rel_err, 3) << " %)";
+  const TrustedBand tb = trusted_band(f);
+  if (tb.found()) s << "; trusted band " << num(tb.lo_hz, 5) << " to " << num(tb.hi_hz, 5) << " Hz";
+  else s << "; no trusted band";
   if (!f.excitation.empty()) s << "\n  excitation: " << f.excitation;
   if (f.harmonics && !f.harmonics->overall_db.empty()) {
     s << "\n  harmonic distortion (log-sweep deconvolution):";

@@ -43,6 +43,14 @@ enum class Estimator { h1, h2, hv, indirect, periodic, stepped };
 Estimator parse_estimator(const std::string& name);  // h1 | h2 | hv
 const char* estimator_name(Estimator e);
 
+// What makes a line trusted (the rule is in trusted.h).
+struct TrustOptions {
+  double max_rel_err = 0.2;      // largest random error of |H| of a trusted line (phase s.d. ~11 deg)
+  double local_drop_db = 40;     // Welch: a line whose excitation is further below its level within an
+                                 // octave on either side is not excited
+  double global_drop_db = 60;    // Welch: ... or further below the excitation's strongest level
+};
+
 struct FrfOptions {
   WelchOptions welch;           // segmentation, window, detrend (not used in periodic mode)
   double resolution_hz = 0;     // > 0: segment = smallest power of two with rate/segment <= this
@@ -57,6 +65,7 @@ struct FrfOptions {
   double band_lo_hz = 0;        // lines below are left out
   double band_hi_hz = 0;        // lines above are left out; 0 = up to Nyquist
   double confidence = 0.95;     // level of the zero-coherence bound, in [0.5, 0.9999]
+  TrustOptions trust;           // what makes a line trusted (trusted.h)
   bool loop_gain = false;       // injection measurement: report L = -G_ry/G_ru (needs reference)
   std::size_t block_frames = 65536;  // frames read at a time (memory, not results)
   bool prefetch = true;         // read the record on a background thread while the spectra are
@@ -93,7 +102,8 @@ struct Frf {
   std::vector<double> rel_err;     // NaN where undefined (no averages, zero coherence)
   std::vector<double> guu, gyy;    // one-sided density, unit^2/Hz
   std::vector<std::complex<double>> guy;
-  std::vector<std::uint8_t> reliable;  // 1: coherence above the zero-coherence bound
+  std::vector<std::uint8_t> reliable;  // 1: a trusted line (trusted.h: coherence above the
+                                       // zero-coherence bound, excited, rel_err within the limit)
   std::vector<double> distortion_pct;  // stepped sine: output THD+N per point, % (else empty)
 
   // Nonlinearity hint from the lines a periodic excitation leaves out (NaN

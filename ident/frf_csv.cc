@@ -10,6 +10,7 @@
 #include <sstream>
 
 #include "ident/error.h"
+#include "ident/trusted.h"
 
 namespace benchid::ident {
 
@@ -163,6 +164,7 @@ Frf read_frf_csv(const std::string& path) {
   f.samples = getn("samples");
   f.effective_averages = getd("effective_averages", static_cast<double>(f.averages), 0);
   f.coherence_bound = getd("coherence_bound", 1.0, 0, 1);
+  const bool bound_given = meta.count("coherence_bound") > 0;
   f.confidence = getd("confidence", 0.95, 0.5, 0.9999);
   if (meta.count("estimator")) {
     const std::string e = meta["estimator"];
@@ -266,7 +268,10 @@ Frf read_frf_csv(const std::string& path) {
     f.h.push_back(h);
     f.coherence.push_back(cc >= 0 ? v[static_cast<std::size_t>(cc)] : nan);
     f.rel_err.push_back(ce >= 0 ? v[static_cast<std::size_t>(ce)] : nan);
-    f.reliable.push_back(cr >= 0 ? v[static_cast<std::size_t>(cr)] == 1.0 : 1);
+    // a file without the column: the coherence and error rule (trusted.h)
+    f.reliable.push_back(cr >= 0 ? v[static_cast<std::size_t>(cr)] == 1.0
+                                 : trusted_by_error(f.coherence.back(), bound_given ? f.coherence_bound : 0.0,
+                                                    f.rel_err.back()));
     if (cd >= 0) f.distortion_pct.push_back(v[static_cast<std::size_t>(cd)]);
   }
   if (f.freq_hz.empty()) throw InputError(where(path, ln) + "no data rows; expected one row per frequency line");

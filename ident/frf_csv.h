@@ -2,9 +2,9 @@
 //   "# key=value" metadata lines, then the header
 //   freq_hz,re,im,mag_db,phase_deg,coherence,rel_err,reliable
 // one row per line above 0 Hz; phase unwrapped; rel_err empty where undefined.
-// `reliable` (1/0) is the coherence test against the zero-coherence bound given
-// in the metadata; it extends DESIGN.md's column list, and readers find
-// columns by name, so files without it are still read. A stepped-sine FRF
+// `reliable` (1/0) is the trusted-line rule of trusted.h, decided by `frf`;
+// readers find columns by name, so files without it are still read, with the
+// coherence and error rule of trusted.h in its place. A stepped-sine FRF
 // adds `distortion_pct` (output THD+N per point). Metadata may add
 // excitation=, nonexcited_lines=, nonexcited_db=, nonexcited_noise_db= and
 // one warning= line per warning.

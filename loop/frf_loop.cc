@@ -1,5 +1,7 @@
 #include "loop/frf_loop.h"
 
+#include "ident/trusted.h"
+
 #include <algorithm>
 #include <cmath>
 #include <numbers>
@@ -52,11 +54,11 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
   std::vector<cplx> h;
   std::vector<double> eps;
   std::size_t left_out = 0;
-  for (std::size_t k = 0; k < frf.size(); ++k) {
+  const ident::ChosenBand band = ident::choose_band(frf, o.band_given, o.band_lo_hz, o.band_hi_hz);
+  for (std::size_t k = 0; k < frf.size() && band.found(); ++k) {
     const double fr = frf.freq_hz[k];
-    if ((o.band_lo_hz > 0 && fr < o.band_lo_hz) || (o.band_hi_hz > 0 && fr > o.band_hi_hz)) continue;
-    const double e = k < frf.rel_err.size() ? frf.rel_err[k] : std::numeric_limits<double>::quiet_NaN();
-    if ((!frf.reliable.empty() && !frf.reliable[k]) || e > o.max_rel_err) {
+    if (fr < band.lo_hz || fr > band.hi_hz) continue;
+    if (!ident::is_trusted(frf, k)) {
       ++left_out;
       continue;
     }
@@ -64,9 +66,11 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
     h.push_back(frf.h[k]);
     eps.push_back(k < frf.rel_err.size() ? frf.rel_err[k] : std::numeric_limits<double>::quiet_NaN());
   }
-  if (f.size() < 4) throw InputError("the FRF has " + std::to_string(f.size()) + " usable lines (reliable, rel_err <= " +
-                                    fmt_num(o.max_rel_err) + ", in the band); expected at least 4 for loop figures");
+  if (f.size() < 4)
+    throw InputError("the FRF has " + std::to_string(f.size()) + " trusted lines in the band (" + band.note +
+                     "); expected at least 4 for loop figures");
   FrfMargins out;
+  out.band_note = band.note;
   out.lines = f.size();
   out.left_out = left_out;
   const double lo = f.front(), hi = f.back();

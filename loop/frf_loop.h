@@ -28,6 +28,7 @@ namespace benchid::loop {
 struct FrfMargins {
   Margins nominal;
   std::size_t lines = 0, left_out = 0;
+  std::string band_note;  // the band used, and how it was chosen
   // Monte Carlo spreads (1 s.d.); NaN when the FRF has no rel_err
   double pm_sd_deg = std::numeric_limits<double>::quiet_NaN();
   double gm_sd_db = std::numeric_limits<double>::quiet_NaN();
@@ -45,10 +46,11 @@ struct FrfLoopOptions {
   std::size_t draws = 200;     // Monte Carlo draws (0: none)
   std::uint64_t seed = 1;
   int plant_integrators = 0;   // declared integrators of the plant below the band
-  double max_rel_err = 0.25;   // lines with a larger random error are left out: the zero-coherence
-                               // flag alone passes 5 % of noise-only lines, which make spurious
-                               // crossings (0.25 = phase s.d. 14 deg, the trust rule of phase unwrapping)
-  double band_lo_hz = 0, band_hi_hz = 0;  // 0: no limit
+  // Only trusted lines are used (ident/trusted.h), inside the band: the given
+  // one, or else the FRF's trusted band (single lines that pass by chance
+  // above it would make spurious crossings).
+  bool band_given = false;
+  double band_lo_hz = 0, band_hi_hz = 0;  // band_given: Hz (hi 0: to the top)
 };
 
 FrfMargins frf_margins(const ident::Frf& plant, const Controller& c, const FrfLoopOptions& o = {});

@@ -77,7 +77,7 @@ TEST(FitCli, BadInputExitsTwoWithoutOutput) {
   const std::string unreliable = write_frf(d, 40, false, "bad.csv");
   d.write("nan.csv", "freq_hz,re,im\n1,1,0\n2,nan,0\n");
   for (const Case& c : std::vector<Case>{
-           {unreliable + " --order 2", "all 40 lines in the band are flagged unreliable"},
+           {unreliable + " --order 2", "all 40 lines in the band 0.5 to 200 Hz are untrusted"},
            {ok + " --order 30", "40 lines cannot carry an order-30 fit"},
            {ok + " --order 2 --band 900:1000", "holds no line"},
            {ok + " --order two", "--order 'two' is not a number"},
