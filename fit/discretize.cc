@@ -25,6 +25,12 @@ namespace {
 
 // pole-residue form of C (zI - A)^-1 B + D by eigen-decomposition (distinct poles)
 RationalModel from_state_space(const Mat& a, const Vec& b, const Vec& c, double d) {
+  if (a.rows() == 0) {  // a pure gain
+    RationalModel g;
+    g.domain = Domain::z;
+    g.direct = d;
+    return g;
+  }
   Eigen::EigenSolver<Mat> es(a, true);
   const Eigen::MatrixXcd v = es.eigenvectors();
   const Eigen::MatrixXcd w = v.inverse();
@@ -99,17 +105,22 @@ Discretized discretize(const RationalModel& m, const DiscretizeOptions& o) {
       if (!(wp * t / 2 < std::numbers::pi / 2)) throw InputError("prewarp " + fmt_num(o.prewarp_hz) + " Hz: expected below Nyquist");
       cst = wp / std::tan(wp * t / 2);
     }
-    const Zpk z = m.zpk();
-    std::vector<cplx> zz, pz;
-    double gain = z.gain;
-    cplx ratio = 1.0;
-    for (const cplx& q : z.zeros) zz.push_back((cst + q) / (cst - q)), ratio *= cst - q;
-    for (const cplx& p : z.poles) pz.push_back((cst + p) / (cst - p)), ratio /= cst - p;
-    gain *= ratio.real();
-    while (zz.size() < pz.size()) zz.emplace_back(-1.0);
-    if (zz.size() > pz.size()) throw InputError("an improper model has no bilinear equivalent");
-    // numerator and denominator of equal degree after the bilinear map
-    RationalModel r = from_zpk(Zpk{zz, pz, gain}, Domain::z, t);
+    // the bilinear map on the state space (as scipy.signal.cont2discrete
+    // 'bilinear', with dt = 2/c so that prewarping is the same map): no
+    // polynomial and no product over the roots, exact at any order
+    if (m.integrators > 1)
+      throw InputError("tustin of more than one integrator is not supported yet (repeated poles at z = 1)");
+    const detail::EigenStateSpace ss = detail::to_eigen(m.state_space());
+    const Eigen::Index n = ss.a.rows();
+    const double h = 2.0 / cst;  // the step of the equivalent trapezoidal rule
+    const Mat ima = Mat::Identity(n, n) - 0.5 * h * ss.a;
+    const Eigen::PartialPivLU<Mat> lu(ima);
+    const Mat ad = lu.solve(Mat::Identity(n, n) + 0.5 * h * ss.a);
+    const Vec bd = lu.solve(h * ss.b);
+    const Vec cd = lu.transpose().solve(ss.c);
+    const double dd = ss.d + 0.5 * ss.c.dot(bd);
+    RationalModel r = from_state_space(ad, bd, cd, dd);
+    r.sample_time_s = t;
     const double samples = std::round(m.delay_s / t);
     out.delay_rounding_s = samples * t - m.delay_s;
     r.delay_s = samples * t;
@@ -156,27 +167,73 @@ std::vector<Section> second_order_sections(const RationalModel& zm) {
   }
   std::sort(sections_p.begin(), sections_p.end(),
             [](const auto& a, const auto& b) { return std::abs(a[0]) < std::abs(b[0]); });
-  std::vector<Section> out;
-  std::vector<bool> zused(zeros.size(), false);
-  for (std::size_t s = 0; s < sections_p.size(); ++s) {
-    const auto& g = sections_p[s];
-    // nearest zeros, as many as poles, keeping conjugates together
-    std::vector<cplx> zs;
-    while (zs.size() < g.size()) {
+  // zeros in groups that keep a real section: conjugate pairs, and reals
+  std::vector<std::vector<cplx>> zpairs;
+  std::vector<cplx> zreal;
+  {
+    std::vector<bool> zu(zeros.size(), false);
+    for (std::size_t i = 0; i < zeros.size(); ++i) {
+      if (zu[i]) continue;
+      zu[i] = true;
+      if (zeros[i].imag() == 0) {
+        zreal.push_back(zeros[i]);
+        continue;
+      }
       std::size_t best = zeros.size();
       for (std::size_t j = 0; j < zeros.size(); ++j)
-        if (!zused[j] && (best == zeros.size() || std::abs(zeros[j] - g[0]) < std::abs(zeros[best] - g[0]))) best = j;
-      if (best == zeros.size()) break;
-      zused[best] = true;
-      zs.push_back(zeros[best]);
-      if (zeros[best].imag() != 0 && zs.size() < g.size())
-        for (std::size_t j = 0; j < zeros.size(); ++j)
-          if (!zused[j] && std::abs(zeros[j] - std::conj(zeros[best])) < 1e-9 * std::max(1.0, std::abs(zeros[best]))) {
-            zused[j] = true;
-            zs.push_back(zeros[j]);
-            break;
-          }
+        if (!zu[j] && (best == zeros.size() ||
+                       std::abs(zeros[j] - std::conj(zeros[i])) < std::abs(zeros[best] - std::conj(zeros[i]))))
+          best = j;
+      if (best == zeros.size()) {  // no partner: keep it real (rounding-level imaginary part)
+        zreal.push_back(zeros[i].real());
+        continue;
+      }
+      zu[best] = true;
+      zpairs.push_back({zeros[i], std::conj(zeros[i])});
     }
+  }
+  // Each section takes the zeros nearest its poles, the poles nearest the
+  // unit circle first (they need the best-matched zeros); a section of two
+  // poles takes a conjugate pair or two reals, a pair always when the pairs
+  // left would otherwise outnumber the two-pole sections left.
+  std::vector<std::vector<cplx>> section_zeros(sections_p.size());
+  std::size_t two_left = 0;
+  for (const auto& g : sections_p) two_left += g.size() == 2;
+  for (std::size_t k = sections_p.size(); k-- > 0;) {
+    const auto& g = sections_p[k];
+    std::vector<cplx>& zs = section_zeros[k];
+    auto nearest_real = [&]() -> std::size_t {
+      std::size_t best = zreal.size();
+      for (std::size_t j = 0; j < zreal.size(); ++j)
+        if (best == zreal.size() || std::abs(zreal[j] - g[0]) < std::abs(zreal[best] - g[0])) best = j;
+      return best;
+    };
+    if (g.size() == 2) {
+      --two_left;
+      std::size_t bp = zpairs.size();
+      for (std::size_t j = 0; j < zpairs.size(); ++j)
+        if (bp == zpairs.size() || std::abs(zpairs[j][0] - g[0]) < std::abs(zpairs[bp][0] - g[0])) bp = j;
+      const std::size_t br = nearest_real();
+      const bool must_pair = zpairs.size() > two_left;
+      const bool pair_nearer = bp < zpairs.size() &&
+                               (br == zreal.size() || zreal.size() < 2 || std::abs(zpairs[bp][0] - g[0]) <= std::abs(zreal[br] - g[0]));
+      if (bp < zpairs.size() && (must_pair || pair_nearer)) {
+        zs = zpairs[bp];
+        zpairs.erase(zpairs.begin() + static_cast<long>(bp));
+        continue;
+      }
+    }
+    while (zs.size() < g.size()) {
+      const std::size_t br = nearest_real();
+      if (br == zreal.size()) break;
+      zs.push_back(zreal[br]);
+      zreal.erase(zreal.begin() + static_cast<long>(br));
+    }
+  }
+  std::vector<Section> out;
+  for (std::size_t s = 0; s < sections_p.size(); ++s) {
+    const auto& g = sections_p[s];
+    const std::vector<cplx>& zs = section_zeros[s];
     std::vector<double> num = poly_from_roots(zs), den = poly_from_roots(g);
     // z^-1 form: divide both by z^(poles): fewer zeros than poles means a
     // numerator that starts later (padded on the left: a delay)...

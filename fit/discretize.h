@@ -7,9 +7,11 @@
 //   tustin  s = c (z - 1)/(z + 1), c = 2/T, or with prewarping at f_p:
 //           c = w_p / tan(w_p T / 2) so the response is exact at f_p; poles
 //           and zeros map as z = (c + p)/(c - p), zeros at infinity to
-//           z = -1, gain k prod(c - z_i)/prod(c - p_i) (as
-//           scipy.signal.bilinear_zpk). A delay must be a whole number of
-//           samples here (it is rounded, and the rounding reported).
+//           z = -1. Computed on the state space (the trapezoidal rule with
+//           step 2/c, as scipy.signal.cont2discrete 'bilinear'), so no
+//           product over the roots can overflow at high order. A delay must
+//           be a whole number of samples here (it is rounded, and the
+//           rounding reported).
 // Second-order sections: z-domain zeros and poles paired (each pole pair with
 // the nearest zeros, poles nearest the unit circle last), b0 b1 b2 / 1 a1 a2
 // per section, the gain in the first; descending powers of z.

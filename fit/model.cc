@@ -121,13 +121,104 @@ Polynomial RationalModel::polynomial() const {
   return p;
 }
 
+namespace {
+
+// log(x - r) summed over roots, for gains of high-order products without overflow
+cplx log_prod(cplx x, const std::vector<cplx>& roots) {
+  cplx acc = 0;
+  for (const cplx& r : roots) acc += std::log(x - r);
+  return acc;
+}
+
+}  // namespace
+
+std::vector<cplx> RationalModel::transmission_zeros() const {
+  if (proportional != 0) {  // improper: H = (h s^2 + ...)/...; the polynomial form (rare, low order)
+    const Polynomial p = polynomial();
+    return polynomial_roots(p.num);
+  }
+  const StateSpace ss = state_space();
+  const auto n = static_cast<Eigen::Index>(ss.a.size());
+  if (n == 0) return {};
+  // Frequency scaling: s = w0 sigma with w0 the largest pole magnitude, so
+  // that A' = A/w0 has norm about 1 and C' = C/w0; then the output row and
+  // the input column are scaled to unit norm (neither changes the zeros).
+  double w0 = 0;
+  if (domain == Domain::s)
+    for (const cplx& p : poles) w0 = std::max(w0, std::abs(p));
+  if (!(w0 > 0)) w0 = 1.0;
+  Eigen::MatrixXd m = Eigen::MatrixXd::Zero(n + 1, n + 1), e = Eigen::MatrixXd::Zero(n + 1, n + 1);
+  for (Eigen::Index i = 0; i < n; ++i) {
+    for (Eigen::Index j = 0; j < n; ++j) m(i, j) = ss.a[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] / w0;
+    m(i, n) = ss.b[static_cast<std::size_t>(i)];
+    m(n, i) = ss.c[static_cast<std::size_t>(i)] / w0;
+    e(i, i) = 1.0;
+  }
+  m(n, n) = ss.d;
+  const double row = m.row(n).norm(), col = m.col(n).head(n).norm();
+  if (!(row > 0)) return {};  // H = 0
+  m.row(n) /= row;
+  if (col > 0) m.col(n) /= col, e.col(n) /= col;  // e's last column is zero: unchanged
+  // zeros of C (sI - A)^-1 B + D: the finite generalised eigenvalues of the
+  // pencil [A B; C D] - sigma [I 0; 0 0] (Emami-Naeini & Van Dooren 1982)
+  Eigen::GeneralizedEigenSolver<Eigen::MatrixXd> ges;
+  ges.compute(m, e, false);
+  if (ges.info() != Eigen::Success) {
+    const Polynomial p = polynomial();  // the QZ iteration did not converge: the older route
+    return polynomial_roots(p.num);
+  }
+  std::vector<cplx> z;
+  const auto alphas = ges.alphas();
+  const auto betas = ges.betas();
+  for (Eigen::Index i = 0; i < alphas.size(); ++i) {
+    const cplx a = alphas(i);
+    const double b = betas(i);
+    // infinite eigenvalues (the relative degree, plus one) come back with
+    // beta at rounding level; a finite zero beyond 1e12 of the largest pole
+    // is none that a measured band could show
+    if (!(std::fabs(b) > 1e-12 * std::abs(a))) continue;
+    z.push_back(a / b * w0);
+  }
+  // the real QZ gives complex pairs as exact conjugates (2x2 blocks); a
+  // near-real one at rounding level is real
+  for (cplx& q : z)
+    if (std::fabs(q.imag()) <= 1e-12 * std::abs(q)) q = q.real();
+  for (std::size_t i = 0; i + 1 < z.size(); ++i)  // each pair upper member first, as the poles are listed
+    if (z[i].imag() < 0 && z[i + 1] == std::conj(z[i])) std::swap(z[i], z[i + 1]), ++i;
+  return z;
+}
+
 Zpk RationalModel::zpk() const {
-  const Polynomial p = polynomial();
   Zpk z;
-  z.zeros = polynomial_roots(p.num);
+  z.zeros = transmission_zeros();
   z.poles = poles;
   for (int k = 0; k < integrators; ++k) z.poles.emplace_back(domain == Domain::s ? 0.0 : 1.0);
-  z.gain = p.num.empty() ? 0.0 : p.num.front();
+  // k from H at a point away from every pole and zero, in logarithms (a
+  // 40-pole product in rad/s overflows nothing this way): k = H(x) prod(x -
+  // p)/prod(x - z). The point is on a circle of the poles' scale, at the
+  // angle (of a few) farthest from every root.
+  double scale = 0;
+  for (const cplx& p : z.poles) scale = std::max(scale, std::abs(p));
+  for (const cplx& q : z.zeros) scale = std::max(scale, std::min(std::abs(q), 1e3 * std::max(scale, 1.0)));
+  if (domain == Domain::z) scale = 1.0;  // the unit circle is where z models live
+  if (!(scale > 0)) scale = 1.0;
+  cplx best = 0;
+  double best_gap = -1;
+  for (int i = 0; i < 12; ++i) {
+    const cplx x = std::polar(1.3 * scale, std::numbers::pi * (0.5 + 0.45 * i / 11.0) + 0.01);
+    double gap = std::numeric_limits<double>::infinity();
+    for (const cplx& r : z.poles) gap = std::min(gap, std::abs(x - r));
+    for (const cplx& r : z.zeros) gap = std::min(gap, std::abs(x - r));
+    if (gap > best_gap) best_gap = gap, best = x;
+  }
+  const cplx hx = rational(best);
+  if (std::abs(hx) == 0 || !std::isfinite(std::abs(hx))) {
+    z.gain = 0;
+    return z;
+  }
+  const cplx lk = std::log(hx) + log_prod(best, z.poles) - log_prod(best, z.zeros);
+  const double mag = std::exp(lk.real());
+  z.gain = std::cos(lk.imag()) >= 0 ? mag : -mag;  // k is real: its sign from the phase
   return z;
 }
 

@@ -52,8 +52,13 @@ struct RationalModel {
   cplx rational(cplx x) const;
   // H(j 2 pi f) (or H(e^{j 2 pi f T_s})), with the delay.
   cplx response(double freq_hz) const;
-  // Zeros, poles (integrators included) and gain of the rational part.
+  // Zeros, poles (integrators included) and gain of the rational part. The
+  // zeros are the finite generalised eigenvalues of the frequency-scaled
+  // system pencil of state_space() (not roots of the expanded numerator,
+  // which lose every digit beyond modest orders); k from H at a point away
+  // from every root, computed in logarithms.
   Zpk zpk() const;
+  std::vector<cplx> transmission_zeros() const;
   // Numerator and denominator in descending powers (ill-conditioned above
   // modest orders: the pole-residue form is the model).
   Polynomial polynomial() const;
