@@ -37,6 +37,8 @@ fit::FitOptions fit_options(const FitArgs& a) {
   o.weighting = fit::parse_weighting(a.weighting);
   o.vf.integrators = a.integrators;
   o.vf.proper = !a.strictly_proper;
+  if (a.strictly_proper && a.direct) throw InputError("--strictly-proper and --direct contradict each other; give one");
+  o.auto_proper = !a.strictly_proper && !a.direct && !a.improper;
   o.vf.improper = a.improper;
   o.vf.allow_unstable = a.allow_unstable;
   o.vf.max_iterations = a.max_iterations;
@@ -165,9 +167,10 @@ void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline) {
   // a recording straight off the bench always carries some delay; a single
   // `fit` keeps the plain default so a model is what the user asked for
   if (pipeline) a.delay = "auto";
-  c->add_option("--order", a.order, "Poles to fit besides integrators: N (1..200), or auto: the lowest order whose "
-                "residual is consistent with the measurement noise (chi-square test, 99 %), else the lowest Akaike "
-                "criterion (default auto)");
+  c->add_option("--order", a.order, "Poles to fit besides integrators: N (1..200), or auto: from the lowest "
+                "converged order, a higher one only when its residual is at least 10 % lower, a new pole lies in the "
+                "band, stays put over the next two orders, and the lines near it stood beyond the noise before; the "
+                "sweep stops 4 orders past the choice (default auto)");
   c->add_option("--max-order", a.max_order, "Order sweep limit for --order auto (default 20)");
   c->add_option("--delay", a.delay, std::string("Pure delay in s, or auto: estimated from the phase slope and refined "
                 "with the fit (default ") + (pipeline ? "auto)" : "0)"));
@@ -177,7 +180,10 @@ void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline) {
                 "motor (default 0)");
   c->add_option("--weighting", a.weighting, "variance (1/standard error from the FRF's rel_err, floored at a tenth "
                 "of the median), relative (1/|H|) or uniform (default variance)");
-  c->add_flag("--strictly-proper", a.strictly_proper, "No direct term: the model falls off at high frequency");
+  c->add_flag("--strictly-proper", a.strictly_proper, "No direct term: the model falls off at high frequency "
+              "(default: decided by the slope of |H| over the top fifth of the band, a direct term only where it "
+              "is flat, above -6 dB/decade)");
+  c->add_flag("--direct", a.direct, "Always fit a direct term d (relative degree 0)");
   c->add_flag("--improper", a.improper, "Allow a term proportional to s (rising response)");
   c->add_flag("--allow-unstable", a.allow_unstable, "Keep right-half-plane poles instead of reflecting them");
   c->add_option("--method", a.method, "vf (vector fitting) or sk (Sanathanan-Koerner iteration on the polynomial "

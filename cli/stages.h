@@ -83,7 +83,7 @@ struct FitArgs {
   int integrators = 0;
   int max_iterations = fit::VectorFitOptions{}.max_iterations;
   std::string method = "vf";
-  bool strictly_proper = false, improper = false, allow_unstable = false;
+  bool strictly_proper = false, direct = false, improper = false, allow_unstable = false;
 };
 // pipeline: `report`'s defaults (delay auto, the trusted band).
 void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline);

@@ -15,6 +15,7 @@
 namespace benchid::fit {
 
 using benchid::InputError;
+using benchid::fmt;
 using benchid::fmt_num;
 
 namespace {
@@ -63,9 +64,8 @@ double aic(const FitResult& r, const FitData& d, int params) {
   return n * std::log(std::max(rss, 1e-300) / n) + 2.0 * params;
 }
 
-bool chi2_ok(const FitResult& r) { return r.dof > 0 && r.chi2 <= r.dof + 2.326 * std::sqrt(2.0 * r.dof); }
-
-FitResult fit_with_delay_search(const FitData& d, VectorFitOptions vo, double t0) {
+FitResult fit_with_delay_search(const FitData& d, VectorFitOptions vo, double t0, int order) {
+  vo.order = order;
   const double w_max = 2 * std::numbers::pi * d.freq_hz.back();
   double a = 0, b = 2 * t0 + 1 / w_max;
   const double g = (std::sqrt(5.0) - 1) / 2;
@@ -88,6 +88,222 @@ FitResult fit_with_delay_search(const FitData& d, VectorFitOptions vo, double t0
   }
   vo.delay_s = (a + b) / 2;
   return vector_fit(d, vo);
+}
+
+// Slope of |H| over the top fifth of the band in log frequency (at least 8
+// lines), dB per decade, by least squares.
+double top_slope_db_per_decade(const FitData& d) {
+  const std::size_t n = d.freq_hz.size();
+  if (n < 8) return 0;
+  const double top = std::log10(d.freq_hz.back()), span = top - std::log10(d.freq_hz.front());
+  std::size_t from = n - 8;
+  while (from > 0 && std::log10(d.freq_hz[from - 1]) >= top - span / 5) --from;
+  double sx = 0, sy = 0, sxx = 0, sxy = 0;
+  const double m = static_cast<double>(n - from);
+  for (std::size_t k = from; k < n; ++k) {
+    const double x = std::log10(d.freq_hz[k]), y = 20 * std::log10(std::abs(d.h[k]));
+    sx += x, sy += y, sxx += x * x, sxy += x * y;
+  }
+  const double den = m * sxx - sx * sx;
+  return den > 0 ? (m * sxy - sx * sy) / den : 0;
+}
+
+std::vector<cplx> upper_poles(const RationalModel& m) {
+  std::vector<cplx> u;
+  for (const cplx& p : m.poles)
+    if (p.imag() >= 0) u.push_back(p);
+  return u;
+}
+
+// poles of `now` without a partner in `before` (one to one, nearest first,
+// within 10 % of the pole's magnitude)
+std::vector<cplx> new_poles(const std::vector<cplx>& now, std::vector<cplx> before) {
+  std::vector<cplx> out;
+  for (const cplx& p : now) {
+    auto it = std::min_element(before.begin(), before.end(),
+                               [&](cplx a, cplx b) { return std::abs(a - p) < std::abs(b - p); });
+    if (it != before.end() && std::abs(*it - p) <= 0.1 * std::abs(p)) {
+      before.erase(it);
+      continue;
+    }
+    out.push_back(p);
+  }
+  return out;
+}
+
+// Whether a pole is still there at another order: a pair within its own
+// half-power half-width (|Re p|) or 3 % of |p|, a real pole within 10 %.
+bool stays(cplx p, const std::vector<cplx>& set) {
+  const double tol = p.imag() == 0 ? 0.1 * std::abs(p) : std::max(0.03 * std::abs(p), std::fabs(p.real()));
+  for (const cplx& q : set)
+    if (std::abs(q - p) <= tol) return true;
+  return false;
+}
+
+// The lines a pole acts on most: within 3 half-power bandwidths (2 zeta f_n)
+// of its natural frequency for a pair, half an octave of its corner for a
+// real pole; at least the two nearest lines either side.
+std::pair<std::size_t, std::size_t> lines_near(const FitData& d, cplx p) {
+  const Mode md = mode_of(p);
+  const double half = md.real ? md.freq_hz * 0.41 : 3 * 2 * md.damping * md.freq_hz;
+  const auto lo_it = std::lower_bound(d.freq_hz.begin(), d.freq_hz.end(), md.freq_hz - half);
+  const auto hi_it = std::upper_bound(d.freq_hz.begin(), d.freq_hz.end(), md.freq_hz + half);
+  std::size_t a = static_cast<std::size_t>(lo_it - d.freq_hz.begin()), b = static_cast<std::size_t>(hi_it - d.freq_hz.begin());
+  const std::size_t c = static_cast<std::size_t>(std::lower_bound(d.freq_hz.begin(), d.freq_hz.end(), md.freq_hz) - d.freq_hz.begin());
+  a = std::min(a, c >= 2 ? c - 2 : 0);
+  b = std::max(b, std::min(d.freq_hz.size(), c + 2));
+  return {a, b};
+}
+
+// Whether the lines near p stood beyond the noise under `before`: their
+// weighted residual sum (chi-square with 2 N degrees of freedom for N lines,
+// s.d. 2 sqrt(N)) above 2 N by 3 s.d., the s.d. taken sqrt(2) larger because
+// neighbouring Hann lines are correlated (about 0.45 at 50 % overlap) and so
+// count about half (Welch 1967; common practice).
+bool residual_stood_out(const FitData& d, const RationalModel& before, cplx p) {
+  const auto [a, b] = lines_near(d, p);
+  if (b <= a) return false;
+  double chi2 = 0;
+  for (std::size_t k = a; k < b; ++k) chi2 += d.weight[k] * d.weight[k] * std::norm(before.response(d.freq_hz[k]) - d.h[k]);
+  const double n = static_cast<double>(b - a);
+  return chi2 > 2 * n + 3 * 2 * std::sqrt(n) * std::sqrt(2.0);
+}
+
+struct OrderChoice {
+  int order = 1;
+  std::string reason;
+  std::vector<OrderRow> rows;
+  std::vector<std::string> warnings;
+};
+
+// The order rule (see fit_frf.h): fits are made as the sweep needs them, a
+// few orders at once on the threads, and the sweep stops once four orders
+// above the current choice have added nothing.
+OrderChoice choose_order(const FitData& d, const VectorFitOptions& vo, const FitOptions& o) {
+  const int lines = static_cast<int>(d.freq_hz.size());
+  const int hard = std::min(200, (lines - 2) / 2);  // one line per real parameter: 2 n + 2 <= lines
+  if (hard < 1) throw InputError(std::to_string(lines) + " lines are too few for any order");
+  int limit = std::min(o.max_order, hard);
+  std::vector<FitResult> fits(static_cast<std::size_t>(hard) + 1);
+  std::vector<char> done(fits.size(), 0);
+  const int hw = static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
+  const int n_threads = std::max(1, o.threads > 0 ? o.threads : std::min(hw, 8));
+  ident::WorkPool pool(static_cast<std::size_t>(n_threads - 1));
+  // fits orders up to `upto` that are not yet made, `n_threads` at a time
+  auto need = [&](int upto) {
+    upto = std::min(upto, hard);
+    std::vector<int> todo;
+    for (int n = 1; n <= upto; ++n)
+      if (!done[static_cast<std::size_t>(n)]) todo.push_back(n);
+    if (todo.empty()) return;
+    std::vector<std::exception_ptr> errors(todo.size());
+    pool.run(todo.size(), [&](std::size_t i) {
+      VectorFitOptions v = vo;
+      v.order = todo[i];
+      try {
+        fits[static_cast<std::size_t>(todo[i])] = vector_fit(d, v);
+      } catch (...) {
+        errors[i] = std::current_exception();
+      }
+    });
+    for (auto& e : errors)
+      if (e) std::rethrow_exception(e);
+    for (int n : todo) done[static_cast<std::size_t>(n)] = 1;
+  };
+  int used = 0;  // the highest order the rule looked at: the table stops there, whatever the threads fitted
+  auto fit = [&](int n) -> const FitResult& {
+    used = std::max(used, n);
+    if (!done[static_cast<std::size_t>(n)]) need(n + n_threads - 1);
+    return fits[static_cast<std::size_t>(n)];
+  };
+  const double f_lo = d.freq_hz.front(), f_hi = d.freq_hz.back();
+  auto in_band = [&](cplx p) {
+    const double f = mode_of(p).freq_hz;
+    return f >= f_lo && f <= f_hi;
+  };
+  OrderChoice c;
+  std::vector<std::string> notes(fits.size());
+  int current = 0;
+  for (int n = 1; n <= limit && current == 0; ++n)
+    if (fit(n).converged) current = n, notes[static_cast<std::size_t>(n)] = "lowest converged order";
+  if (current == 0) {
+    c.order = 1;
+    double best = fit(1).chi2;
+    for (int n = 2; n <= limit; ++n)
+      if (fit(n).chi2 < best) best = fit(n).chi2, c.order = n;
+    c.reason = "no order up to " + std::to_string(limit) + " converged; the lowest residual is shown";
+  } else {
+    // the last order whose residual was at least 10 % below the choice's:
+    // while the residual still falls, the sweep goes on (sharp modes can make
+    // the low orders' poles wander until all of them are in)
+    int last_effect = current;
+    for (int m = current + 1; m <= limit && m - std::max(current, last_effect) <= 4; ++m) {
+      std::string& note = notes[static_cast<std::size_t>(m)];
+      const FitResult& cur = fit(current);
+      const FitResult& r = fit(m);
+      if (r.chi2 <= 0.9 * cur.chi2) last_effect = m;
+      if (!r.converged) {
+        note = "not converged";
+        continue;
+      }
+      if (!(r.chi2 <= 0.9 * cur.chi2)) {
+        note = "residual " + fmt("%.1f", 100 * (1 - r.chi2 / cur.chi2)) + " % lower than order " +
+               std::to_string(current) + ": under 10 %";
+        continue;
+      }
+      const std::vector<cplx> added = new_poles(upper_poles(r.model), upper_poles(cur.model));
+      std::vector<cplx> inside;
+      for (const cplx& p : added)
+        if (in_band(p)) inside.push_back(p);
+      // poles outside the band shape the phase and slope within it; they
+      // are taken on a strong effect alone (the residual at least halved)
+      if (inside.empty() && !(r.chi2 <= 0.5 * cur.chi2)) {
+        note = "new poles only outside the band, and the residual not halved";
+        continue;
+      }
+      // each new pole found again at one of the next two orders at least (a
+      // pole near the band's edge may be pulled by a pole added beyond it)
+      bool stable = true;
+      for (const cplx& p : added) {
+        bool again = m + 1 > hard;
+        for (int k = m + 1; k <= std::min(m + 2, hard) && !again; ++k) again = stays(p, upper_poles(fit(k).model));
+        stable = stable && again;
+      }
+      if (!stable) {
+        note = "a new pole moves at the next orders";
+        continue;
+      }
+      bool evidence = true;
+      for (const cplx& p : inside) evidence = evidence && residual_stood_out(d, cur.model, p);
+      if (!evidence) {
+        note = "the lines near a new pole were within the noise before";
+        continue;
+      }
+      const Mode md = mode_of(inside.empty() ? added.front() : inside.front());
+      note = "added: " + std::string(md.real ? "real pole, corner " : "pair at ") + fmt("%.4g", md.freq_hz) + " Hz" +
+             (added.size() > 1 ? " and " + std::to_string(added.size() - 1) + " more" : "") +
+             (inside.empty() ? " (outside the band)" : "");
+      current = m;
+      if (limit < hard && m > limit - 3) {
+        const int grown = std::min(hard, limit + 10);
+        c.warnings.push_back("the residual still fell at order " + std::to_string(m) + ": the sweep limit grew from " +
+                             std::to_string(limit) + " to " + std::to_string(grown));
+        limit = grown;
+      }
+    }
+    c.order = current;
+    c.reason = "the order sweep's rule: a higher order is taken only when its residual is at least 10 % lower, a new "
+               "pole lies inside the band, stays put over the next two orders and the lines near it stood beyond "
+               "the noise before";
+  }
+  for (int n = 1; n <= used; ++n) {
+    const FitResult& r = fits[static_cast<std::size_t>(n)];
+    VectorFitOptions v = vo;
+    v.order = n;
+    c.rows.push_back({n, r.chi2, aic(r, d, params_of(v)), r.nrmse, r.max_err_db, r.dof, r.converged, n == c.order,
+                      notes[static_cast<std::size_t>(n)]});
+  }
+  return c;
 }
 
 }  // namespace
@@ -187,46 +403,28 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
   }
 
   VectorFitOptions vo = o.vf;
+  if (o.auto_proper && !o.vf.improper && vo.domain == Domain::s) {  // in z a held input makes b0 != 0 as a rule
+    vo.proper = top_slope_db_per_decade(out.data) > -6.0;
+    out.proper_note = vo.proper ? "a direct term: |H| is flat at the top of the band (relative degree 0)"
+                                : "no direct term: |H| falls at the top of the band (relative degree >= 1)";
+  }
   if (o.auto_delay) {
     out.delay_first_s = phase_slope_delay(out.data);
     vo.delay_s = out.delay_first_s;
   }
   if (o.auto_order) {
-    // one line per real parameter (see vector_fit): 2 n + 2 <= lines
-    const int limit = std::min(o.max_order, (static_cast<int>(out.data.freq_hz.size()) - 2) / 2);
-    if (limit < 1) throw InputError(std::to_string(out.data.freq_hz.size()) + " lines are too few for any order");
-    // The orders are independent fits: they run on up to `threads` threads,
-    // each into its own slot, and are judged in order afterwards.
-    std::vector<FitResult> fits(static_cast<std::size_t>(limit));
-    std::vector<std::exception_ptr> errors(fits.size());
-    const int hw = static_cast<int>(std::max(1u, std::thread::hardware_concurrency()));
-    const int n_threads = std::min(limit, o.threads > 0 ? o.threads : std::min(hw, 8));
-    ident::WorkPool pool(static_cast<std::size_t>(n_threads - 1));
-    pool.run(static_cast<std::size_t>(limit), [&](std::size_t i) {
-      VectorFitOptions v = vo;
-      v.order = static_cast<int>(i) + 1;
-      try {
-        fits[i] = vector_fit(out.data, v);
-      } catch (...) {
-        errors[i] = std::current_exception();
-      }
-    });
-    int best_aic_order = 1, accepted = 0;
-    double best_aic = 0;
-    for (int n = 1; n <= limit; ++n) {
-      vo.order = n;
-      if (errors[static_cast<std::size_t>(n - 1)]) std::rethrow_exception(errors[static_cast<std::size_t>(n - 1)]);
-      const FitResult& r = fits[static_cast<std::size_t>(n - 1)];
-      const double a = aic(r, out.data, params_of(vo));
-      const bool pass = out.weighting == Weighting::inverse_variance && chi2_ok(r);
-      out.sweep.push_back({n, r.chi2, a, r.nrmse, r.max_err_db, r.dof, r.converged, pass});
-      if (n == 1 || a < best_aic) best_aic = a, best_aic_order = n;
-      if (pass && accepted == 0) accepted = n;
+    OrderChoice c = choose_order(out.data, vo, o);
+    if (o.auto_delay && !o.polynomial) {
+      // the delay refined at the chosen order, then the order chosen again
+      // with it: the two are judged together, not the order with a guess
+      const FitResult r = fit_with_delay_search(out.data, vo, out.delay_first_s, c.order);
+      vo.delay_s = r.model.delay_s;
+      c = choose_order(out.data, vo, o);
     }
-    vo.order = accepted ? accepted : best_aic_order;
-    out.order_reason = accepted ? "lowest order with chi2 <= dof + 2.326 sqrt(2 dof) (99 %, residual consistent with "
-                                  "the measurement noise)"
-                                : "no order reached the noise level; lowest Akaike criterion N ln(RSS/N) + 2p";
+    out.sweep = std::move(c.rows);
+    out.order_reason = c.reason;
+    for (const auto& w : c.warnings) out.warnings.push_back(w);
+    vo.order = c.order;
   } else {
     out.order_reason = "as given";
   }
@@ -234,7 +432,7 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     if (o.auto_delay) vo.delay_s = out.delay_first_s;
     out.result = sk_fit(out.data, vo);
   } else {
-    out.result = o.auto_delay ? fit_with_delay_search(out.data, vo, out.delay_first_s) : vector_fit(out.data, vo);
+    out.result = o.auto_delay ? fit_with_delay_search(out.data, vo, vo.delay_s, vo.order) : vector_fit(out.data, vo);
   }
   if (out.result.model.reflected > 0)
     out.warnings.push_back(std::to_string(out.result.model.reflected) +
@@ -252,20 +450,19 @@ std::string fit_summary(const FrfFit& f, const std::string& source) {
     << " outside the band); weighting " << weighting_name(f.weighting) << "\n";
   if (!f.band_note.empty()) s << "  band " << f.band_note << "\n";
   if (!f.sweep.empty()) {
-    s << "  order sweep:  order   chi2/dof   NRMSE %   worst dB   Akaike      converged\n";
+    s << "  order sweep:  order   chi2/dof   NRMSE %   worst dB  converged\n";
     char b[160];
-    bool marked = false;
     for (const auto& row : f.sweep) {
-      std::snprintf(b, sizeof b, "               %4d  %9.4g  %8.3g  %9.3g  %10.5g   %s", row.order,
-                    row.dof > 0 ? row.chi2 / row.dof : 0.0, 100 * row.nrmse, row.max_err_db, row.aic,
+      std::snprintf(b, sizeof b, "               %4d  %9.4g  %8.3g  %9.3g  %-4s", row.order,
+                    row.dof > 0 ? row.chi2 / row.dof : 0.0, 100 * row.nrmse, row.max_err_db,
                     row.converged ? "yes" : "no");
-      s << b << (row.accepted && !marked ? "  <- first consistent with the noise" : "") << "\n";
-      marked |= row.accepted;
+      s << b << (row.accepted ? "  <- chosen" : "") << (row.note.empty() ? "" : "  (" + row.note + ")") << "\n";
     }
   }
   const int n_poles = static_cast<int>(m.order());
   s << "  order " << n_poles - m.integrators << (m.integrators ? " + " + std::to_string(m.integrators) + " integrators" : "")
     << " (" << f.order_reason << ")\n";
+  if (!f.proper_note.empty()) s << "  " << f.proper_note << "\n";
   s << "  delay " << num(m.delay_s * 1e3, 4) << " ms" << (f.delay_first_s > 0 ? " (estimated; phase-slope start " + num(f.delay_first_s * 1e3, 4) + " ms)" : "") << "\n";
   s << "  " << (r.converged ? "converged" : "NOT converged") << " after " << r.iterations << " iterations; NRMSE "
     << num(100 * r.nrmse, 3) << " %; worst " << num(r.max_err_db, 3) << " dB at " << num(r.max_err_db_hz, 4) << " Hz and "

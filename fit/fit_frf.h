@@ -7,14 +7,25 @@
 // median eps over the lines used, keeps a few near-perfect lines from
 // dominating (DESIGN.md). "relative": w = 1/|H|; "uniform": w = 1.
 //
-// Order "auto" sweeps orders 1..max_order and takes the lowest whose weighted
-// residual is consistent with the measurement noise: with variance weights
-// chi2 ~ chi-square with dof = 2 lines - parameters, accepted when
-// chi2 <= dof + 2.326 sqrt(2 dof) (one-sided 99 %, normal approximation).
-// When no order passes (model error dominates), or without variance
-// weights, the order minimising Akaike's criterion is taken:
-// N ln(RSS/N) + 2 p with N = 2 lines, p the real parameters.
-//
+// Order "auto": only converged fits are candidates, and the lowest converged
+// order is the start. A higher order m replaces the current choice n only
+// when all of these hold (a chi-square test against the error bars cannot be
+// used: rel_err is first order and Welch bias at resonances makes chi2/dof of
+// the true plant 1.05-1.5, and an F-test at thousands of lines accepts any
+// pole that soaks up 0.1 % of bias):
+//  - its weighted residual is at least 10 % lower (an effect size);
+//  - a pole of m with no partner in n (within 10 % of its magnitude) lies
+//    inside the band, and every such pole is found again at m + 1 or m + 2
+//    (pole stability: a pair within its half-power half-width or 3 %, a real
+//    pole within 10 %); poles outside the band alone count only when the
+//    residual is at least halved;
+//  - the lines near each such pole (3 half-power bandwidths, or half an
+//    octave of a real pole's corner) stood beyond the noise under n: their
+//    weighted residual above its expected 2 N by 3 s.d., with the s.d. taken
+//    sqrt(2) larger because neighbouring Hann lines are correlated.
+// The sweep stops once 4 orders above the choice added nothing; the limit
+// grows while the rule still adds poles near it. Akaike's criterion is shown
+// in the table for comparison only.
 // Delay "auto": a first estimate from the slope of the unwrapped phase over
 // the top 30 % of the band (beyond the last resonance a rational model adds
 // little slope), refined by golden-section search of the weighted residual
@@ -32,7 +43,10 @@ namespace benchid::fit {
 struct FitOptions {
   VectorFitOptions vf;          // order, integrators, properness, stability, delay
   bool auto_order = false;
-  int max_order = 20;           // order sweep limit
+  int max_order = 20;           // order sweep limit (grown by 10 at a time while the rule still adds poles
+                                // near it, up to one line per real parameter or 200)
+  bool auto_proper = false;     // decide vf.proper from the slope at the top of the band: a direct term
+                                // only where |H| is flat there (slope above -6 dB/decade)
   bool auto_delay = false;
   Weighting weighting = Weighting::inverse_variance;
   bool band_given = false;      // false: the trusted band of the FRF (ident/trusted.h)
@@ -47,7 +61,8 @@ struct OrderRow {
   int order;
   double chi2, aic, nrmse, max_err_db;
   int dof;
-  bool converged, accepted;
+  bool converged, accepted;  // accepted: the order chosen
+  std::string note;          // why the rule took or passed this order
 };
 
 struct FrfFit {
@@ -59,6 +74,7 @@ struct FrfFit {
   Weighting weighting = Weighting::inverse_variance;
   std::vector<OrderRow> sweep;   // order "auto" only
   std::string order_reason;      // how the order was chosen
+  std::string proper_note;       // auto_proper: why a direct term was or was not fitted
   double delay_first_s = 0;      // delay "auto": the phase-slope estimate
   std::vector<std::string> warnings;
 };

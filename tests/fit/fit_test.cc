@@ -316,8 +316,12 @@ TEST(FitFrf, AutoOrderFindsTheTrueOrderAtTheNoiseLevel) {
   o.vf.proper = false;
   const FrfFit f = fit_frf(frf, o);
   EXPECT_EQ(f.result.model.poles.size(), 3u);
-  ASSERT_EQ(f.sweep.size(), 8u);
+  // the sweep looked past the choice (stability needs orders 4 and 5) and stopped
+  // within 4 orders of the last one that still lowered the residual by 10 %
+  ASSERT_GE(f.sweep.size(), 5u);
+  ASSERT_LE(f.sweep.size(), 8u);
   EXPECT_FALSE(f.sweep[1].accepted);  // order 2 cannot hold both pairs and the real pole
+  EXPECT_TRUE(f.sweep[2].accepted);
 }
 
 // The orders of the sweep are fitted on several threads; each is a fit of
