@@ -263,10 +263,15 @@ OrderChoice choose_order(const FitData& d, const VectorFitOptions& vo, const Fit
       }
       // each new pole found again at one of the next two orders at least (a
       // pole near the band's edge may be pulled by a pole added beyond it)
+      // (among the next orders whose fit is as good: a fit that fell into a
+      // worse local minimum says nothing about these poles)
+      std::vector<int> later;
+      for (int k = m + 1; k <= std::min(m + 4, hard) && later.size() < 2; ++k)
+        if (fit(k).converged && fit(k).chi2 <= 1.1 * r.chi2) later.push_back(k);
       bool stable = true;
       for (const cplx& p : added) {
-        bool again = m + 1 > hard;
-        for (int k = m + 1; k <= std::min(m + 2, hard) && !again; ++k) again = stays(p, upper_poles(fit(k).model));
+        bool again = later.empty();
+        for (int k : later) again = again || stays(p, upper_poles(fit(k).model));
         stable = stable && again;
       }
       if (!stable) {

@@ -3,6 +3,7 @@
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <numbers>
 
 #include "ident/error.h"
@@ -354,6 +355,12 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
   Workspace ws;
   int reflected = 0, still = 0;
   double last_res = -1, last_move = 1.0;
+  // the best iterate by the relocation residual, and when it was reached:
+  // poles that cycle at the noise level instead of settling are judged by
+  // it (converged when the residual has stopped improving), not failed
+  std::vector<cplx> best_poles = poles;
+  double best_res = std::numeric_limits<double>::infinity();
+  int best_at = 0, best_reflected = 0;
   for (int it = 0; it < o.max_iterations; ++it) {
     int refl_now = 0;
     double res = 0;
@@ -365,6 +372,7 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
     } else {
       move = 1.0;  // a pair became two real poles or back
     }
+    if (res < best_res) best_res = res, best_at = it, best_poles = next, best_reflected = refl_now;
     poles = next;
     last_move = move;
     reflected = refl_now;
@@ -383,15 +391,31 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
       r.converged = true;
       break;
     }
+    // cycling: 15 iterations without any better residual than the best
+    // (slow steady progress is not cycling), the poles moving less than 5
+    // %: the best iterate
+    if (it - best_at >= 15 && move < 0.05) {
+      r.converged = true;
+      r.cycled = true;
+      break;
+    }
   }
   ws = Workspace();  // freed before the residue fit allocates its own matrix
-  fit_residues(p, poles, o, r.model);
-  r.model.integrators = o.integrators;
-  r.model.delay_s = o.delay_s;
-  r.model.domain = o.domain;
-  r.model.sample_time_s = o.domain == Domain::z ? o.sample_time_s : 0.0;
-  r.model.reflected = reflected;
-  score(r, d);
+  auto finish = [&](const std::vector<cplx>& ps, int refl, FitResult& out) {
+    fit_residues(p, ps, o, out.model);
+    out.model.integrators = o.integrators;
+    out.model.delay_s = o.delay_s;
+    out.model.domain = o.domain;
+    out.model.sample_time_s = o.domain == Domain::z ? o.sample_time_s : 0.0;
+    out.model.reflected = refl;
+    score(out, d);
+  };
+  finish(poles, reflected, r);
+  if (r.cycled && best_poles != poles) {  // the better of the last and the best iterate, by the fit itself
+    FitResult b = r;
+    finish(best_poles, best_reflected, b);
+    if (b.chi2 < r.chi2) r = std::move(b);
+  }
   return r;
 }
 

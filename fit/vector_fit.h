@@ -57,6 +57,8 @@ struct FitResult {
   RationalModel model;
   int iterations = 0;
   bool converged = false;
+  bool cycled = false;    // converged as the best iterate of poles that cycled at the noise level
+                          // (15 iterations with no lower relocation residual, moves under 5 %)
   double chi2 = 0;        // sum_k w_k^2 |H_k - H^_k|^2
   int dof = 0;            // 2 lines - real parameters
   double nrmse = 0;       // ||H - H^|| / ||H||
