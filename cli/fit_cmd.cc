@@ -164,16 +164,17 @@ void run_fit(const FitCommand& a) {
 }  // namespace
 
 void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline) {
-  // a recording straight off the bench always carries some delay; a single
-  // `fit` keeps the plain default so a model is what the user asked for
-  if (pipeline) a.delay = "auto";
+  // a recording straight off the bench always carries some delay: `fit`,
+  // `report` and `batch` all estimate it unless told
+  (void)pipeline;
+  a.delay = "auto";
   c->add_option("--order", a.order, "Poles to fit besides integrators: N (1..200), or auto: from the lowest "
                 "converged order, a higher one only when its residual is at least 10 % lower, a new pole lies in the "
                 "band, stays put over the next two orders, and the lines near it stood beyond the noise before; the "
                 "sweep stops 4 orders past the choice (default auto)");
   c->add_option("--max-order", a.max_order, "Order sweep limit for --order auto (default 20)");
-  c->add_option("--delay", a.delay, std::string("Pure delay in s, or auto: estimated from the phase slope and refined "
-                "with the fit (default ") + (pipeline ? "auto)" : "0)"));
+  c->add_option("--delay", a.delay, "Pure delay in s, or auto: a start from the phase slope over the top 30 % of the "
+                "trusted lines, refined at the chosen order, and the order chosen again with it (default auto)");
   c->add_option("--band", a.band, "Fit only lines in LO:HI, Hz (default: the trusted band, " +
                 ident::trusted_band_rule() + ")");
   c->add_option("--integrators", a.integrators, "Poles fixed at the origin, e.g. 1 for voltage to position of a "

@@ -78,7 +78,7 @@ ChannelPair read_channel_pair(const std::string& record, const std::string& inpu
 
 // ---- fit -------------------------------------------------------------------
 struct FitArgs {
-  std::string order = "auto", delay = "0", band, weighting = "variance";
+  std::string order = "auto", delay = "auto", band, weighting = "variance";
   int max_order = fit::FitOptions{}.max_order;
   int integrators = 0;
   int max_iterations = fit::VectorFitOptions{}.max_iterations;
