@@ -1,16 +1,16 @@
 // benchid fit FRF.csv [--order N|auto] [--delay auto|SECONDS] [--band LO:HI] [-o MODEL.json]
 #include <cmath>
 #include <cstdio>
-#include <numbers>
 #include <cstdlib>
 #include <iostream>
-#include <stdexcept>
 #include <memory>
+#include <numbers>
+#include <stdexcept>
 
 #include "cli/commands.h"
-#include "cli/stages.h"
 #include "cli/output.h"
 #include "cli/parse.h"
+#include "cli/stages.h"
 #include "fit/discretize.h"
 #include "fit/fit_frf.h"
 #include "fit/model_json.h"
@@ -37,7 +37,8 @@ fit::FitOptions fit_options(const FitArgs& a) {
   o.weighting = fit::parse_weighting(a.weighting);
   o.vf.integrators = a.integrators;
   o.vf.proper = !a.strictly_proper;
-  if (a.strictly_proper && a.direct) throw InputError("--strictly-proper and --direct contradict each other; give one");
+  if (a.strictly_proper && a.direct)
+    throw InputError("--strictly-proper and --direct contradict each other; give one");
   o.auto_proper = !a.strictly_proper && !a.direct && !a.improper;
   o.vf.improper = a.improper;
   o.vf.allow_unstable = a.allow_unstable;
@@ -168,21 +169,29 @@ void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline) {
   // `report` and `batch` all estimate it unless told
   (void)pipeline;
   a.delay = "auto";
-  c->add_option("--order", a.order, "Poles to fit besides integrators: N (1..200), or auto: from the lowest "
-                "converged order, a higher one only when its residual is at least 10 % lower, a new pole lies in the "
-                "band, stays put over the next two orders, and the lines near it stood beyond the noise before; the "
+  c->add_option("--order", a.order,
+                "Poles to fit besides integrators: N (1..200), or auto: from the lowest "
+                "converged order, a higher one only when its residual is at least 10 % lower, a "
+                "new pole lies in the "
+                "band, stays put over the next two orders, and the lines near it stood beyond the "
+                "noise before; the "
                 "sweep stops 4 orders past the choice (default auto)");
   c->add_option("--max-order", a.max_order, "Order sweep limit for --order auto (default 20)");
-  c->add_option("--delay", a.delay, "Pure delay in s, or auto: a start from the phase slope over the top 30 % of the "
-                "trusted lines, refined at the chosen order, and the order chosen again with it (default auto)");
-  c->add_option("--band", a.band, "Fit only lines in LO:HI, Hz (default: the trusted band, " +
-                ident::trusted_band_rule() + ")");
+  c->add_option("--delay", a.delay,
+                "Pure delay in s, or auto: a start from the phase slope over the top 30 % of the "
+                "trusted lines, refined at the chosen order, and the order chosen again with it "
+                "(default auto)");
+  c->add_option("--band", a.band,
+                "Fit only lines in LO:HI, Hz (default: the trusted band, " +
+                    ident::trusted_band_rule() + ")");
   c->add_option("--integrators", a.integrators, "Poles fixed at the origin, e.g. 1 for voltage to position of a "
                 "motor (default 0)");
   c->add_option("--weighting", a.weighting, "variance (1/standard error from the FRF's rel_err, floored at a tenth "
                 "of the median), relative (1/|H|) or uniform (default variance)");
-  c->add_flag("--strictly-proper", a.strictly_proper, "No direct term: the model falls off at high frequency "
-              "(default: decided by the slope of |H| over the top fifth of the band, a direct term only where it "
+  c->add_flag("--strictly-proper", a.strictly_proper,
+              "No direct term: the model falls off at high frequency "
+              "(default: decided by the slope of |H| over the top fifth of the band, a direct term "
+              "only where it "
               "is flat, above -6 dB/decade)");
   c->add_flag("--direct", a.direct, "Always fit a direct term d (relative degree 0)");
   c->add_flag("--improper", a.improper, "Allow a term proportional to s (rising response)");

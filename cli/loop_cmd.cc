@@ -7,18 +7,18 @@
 #include <iostream>
 #include <limits>
 #include <memory>
-#include <optional>
 #include <nlohmann/json.hpp>
+#include <optional>
 #include <sstream>
 
 #include "cli/commands.h"
-#include "cli/stages.h"
 #include "cli/output.h"
 #include "cli/parse.h"
+#include "cli/stages.h"
 #include "fit/model_json.h"
 #include "ident/error.h"
-#include "ident/json_file.h"
 #include "ident/frf_csv.h"
+#include "ident/json_file.h"
 #include "ident/trusted.h"
 #include "loop/controller.h"
 #include "loop/frf_loop.h"
@@ -220,7 +220,9 @@ LoopAnalysis analyse_loop(const LoopArgs& a, const std::string& plant_name, cons
   if (frf_plant)
     t << "  plant: measured FRF (" << fm.lines << " trusted lines used, " << fm.left_out
       << " untrusted left out, in " << fm.band_note << "; margins within it)"
-      << (fm.draws ? ", +- is 1 s.d. from " + std::to_string(fm.draws) + " Monte Carlo draws of the per-line random error" : "")
+      << (fm.draws ? ", +- is 1 s.d. from " + std::to_string(fm.draws) +
+                         " Monte Carlo draws of the per-line random error"
+                   : "")
       << "\n";
   const std::string above = "unknown: |L| = " + fmt("%.3g", l_top) + " at the top of the measured band (" +
                             fmt("%.5g Hz", m.f_hi_hz) + "), so the crossover lies above it";
@@ -474,7 +476,9 @@ void add_loop_options(CLI::App* c, LoopArgs& a, bool pipeline) {
   if (!pipeline) {
     c->add_option("--plant-integrators", a.plant_integrators, "FRF plant: integrators of the plant below the measured "
                   "band, for the Nyquist inference (default 0)");
-    c->add_option("--band", a.band, "FRF plant: use only trusted lines in LO:HI, Hz (default: the trusted band, " + ident::trusted_band_rule() + ")");
+    c->add_option("--band", a.band,
+                  "FRF plant: use only trusted lines in LO:HI, Hz (default: the trusted band, " +
+                      ident::trusted_band_rule() + ")");
   }
   c->add_option("--draws", a.draws, "FRF plant: Monte Carlo draws of the per-line random error for the +- figures "
                 "(default 200; 0: none)");

@@ -14,16 +14,15 @@
 
 #include "cli/commands.h"
 #include "cli/html_report.h"
-#include "cli/report.h"
 #include "cli/output.h"
+#include "cli/report.h"
 #include "cli/stages.h"
-#include "ident/trusted.h"
 #include "fit/model_json.h"
 #include "fit/replay.h"
 #include "ident/error.h"
-#include "ident/trusted.h"
 #include "ident/frf_csv.h"
 #include "ident/record.h"
+#include "ident/trusted.h"
 #include "loop/controller.h"
 
 namespace benchid::cli {

@@ -13,9 +13,9 @@
 #include "cli/tune_stage.h"
 #include "fit/model_json.h"
 #include "ident/error.h"
-#include "ident/trusted.h"
 #include "ident/frf_csv.h"
 #include "ident/json_file.h"
+#include "ident/trusted.h"
 #include "loop/controller.h"
 
 namespace benchid::cli {
@@ -287,8 +287,9 @@ void add_tune_options(CLI::App* c, TuneArgs& a, bool pipeline) {
     c->add_option("--gm-min", a.gm_min, "Gain margin target, dB (default 10, common practice)");
     c->add_option("--ms-max", a.ms_max_db, "Peak sensitivity target, dB (default 6: Ms <= 2, Astrom & Murray)");
     c->add_option("--plant-integrators", a.plant_integrators, "FRF plant: integrators below the measured band (default 0)");
-    c->add_option("--band", a.band, "FRF plant: use only trusted lines in LO:HI, Hz (default: the trusted band, " +
-                  ident::trusted_band_rule() + ")");
+    c->add_option("--band", a.band,
+                  "FRF plant: use only trusted lines in LO:HI, Hz (default: the trusted band, " +
+                      ident::trusted_band_rule() + ")");
   }
   c->add_option("--objective", a.objective, "integral: the highest integral gain ki, i.e. the smallest integrated error "
                 "after a load step (MIGO, Astrom & Hagglund); crossover: the highest gain crossover (loop shaping) "

@@ -109,7 +109,8 @@ Discretized discretize(const RationalModel& m, const DiscretizeOptions& o) {
     // 'bilinear', with dt = 2/c so that prewarping is the same map): no
     // polynomial and no product over the roots, exact at any order
     if (m.integrators > 1)
-      throw InputError("tustin of more than one integrator is not supported yet (repeated poles at z = 1)");
+      throw InputError(
+          "tustin of more than one integrator is not supported yet (repeated poles at z = 1)");
     const detail::EigenStateSpace ss = detail::to_eigen(m.state_space());
     const Eigen::Index n = ss.a.rows();
     const double h = 2.0 / cst;  // the step of the equivalent trapezoidal rule
@@ -181,8 +182,8 @@ std::vector<Section> second_order_sections(const RationalModel& zm) {
       }
       std::size_t best = zeros.size();
       for (std::size_t j = 0; j < zeros.size(); ++j)
-        if (!zu[j] && (best == zeros.size() ||
-                       std::abs(zeros[j] - std::conj(zeros[i])) < std::abs(zeros[best] - std::conj(zeros[i]))))
+        if (!zu[j] && (best == zeros.size() || std::abs(zeros[j] - std::conj(zeros[i])) <
+                                                   std::abs(zeros[best] - std::conj(zeros[i]))))
           best = j;
       if (best == zeros.size()) {  // no partner: keep it real (rounding-level imaginary part)
         zreal.push_back(zeros[i].real());
@@ -205,18 +206,21 @@ std::vector<Section> second_order_sections(const RationalModel& zm) {
     auto nearest_real = [&]() -> std::size_t {
       std::size_t best = zreal.size();
       for (std::size_t j = 0; j < zreal.size(); ++j)
-        if (best == zreal.size() || std::abs(zreal[j] - g[0]) < std::abs(zreal[best] - g[0])) best = j;
+        if (best == zreal.size() || std::abs(zreal[j] - g[0]) < std::abs(zreal[best] - g[0]))
+          best = j;
       return best;
     };
     if (g.size() == 2) {
       --two_left;
       std::size_t bp = zpairs.size();
       for (std::size_t j = 0; j < zpairs.size(); ++j)
-        if (bp == zpairs.size() || std::abs(zpairs[j][0] - g[0]) < std::abs(zpairs[bp][0] - g[0])) bp = j;
+        if (bp == zpairs.size() || std::abs(zpairs[j][0] - g[0]) < std::abs(zpairs[bp][0] - g[0]))
+          bp = j;
       const std::size_t br = nearest_real();
       const bool must_pair = zpairs.size() > two_left;
-      const bool pair_nearer = bp < zpairs.size() &&
-                               (br == zreal.size() || zreal.size() < 2 || std::abs(zpairs[bp][0] - g[0]) <= std::abs(zreal[br] - g[0]));
+      const bool pair_nearer =
+          bp < zpairs.size() && (br == zreal.size() || zreal.size() < 2 ||
+                                 std::abs(zpairs[bp][0] - g[0]) <= std::abs(zreal[br] - g[0]));
       if (bp < zpairs.size() && (must_pair || pair_nearer)) {
         zs = zpairs[bp];
         zpairs.erase(zpairs.begin() + static_cast<long>(bp));

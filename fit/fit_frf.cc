@@ -1,12 +1,12 @@
 #include "fit/fit_frf.h"
 
 #include <algorithm>
-#include <exception>
-#include <thread>
 #include <cmath>
 #include <cstdio>
+#include <exception>
 #include <numbers>
 #include <sstream>
+#include <thread>
 
 #include "ident/error.h"
 #include "ident/trusted.h"
@@ -14,9 +14,9 @@
 
 namespace benchid::fit {
 
-using benchid::InputError;
 using benchid::fmt;
 using benchid::fmt_num;
+using benchid::InputError;
 
 namespace {
 
@@ -134,7 +134,8 @@ std::vector<cplx> new_poles(const std::vector<cplx>& now, std::vector<cplx> befo
 // Whether a pole is still there at another order: a pair within its own
 // half-power half-width (|Re p|) or 3 % of |p|, a real pole within 10 %.
 bool stays(cplx p, const std::vector<cplx>& set) {
-  const double tol = p.imag() == 0 ? 0.1 * std::abs(p) : std::max(0.03 * std::abs(p), std::fabs(p.real()));
+  const double tol =
+      p.imag() == 0 ? 0.1 * std::abs(p) : std::max(0.03 * std::abs(p), std::fabs(p.real()));
   for (const cplx& q : set)
     if (std::abs(q - p) <= tol) return true;
   return false;
@@ -148,8 +149,10 @@ std::pair<std::size_t, std::size_t> lines_near(const FitData& d, cplx p) {
   const double half = md.real ? md.freq_hz * 0.41 : 3 * 2 * md.damping * md.freq_hz;
   const auto lo_it = std::lower_bound(d.freq_hz.begin(), d.freq_hz.end(), md.freq_hz - half);
   const auto hi_it = std::upper_bound(d.freq_hz.begin(), d.freq_hz.end(), md.freq_hz + half);
-  std::size_t a = static_cast<std::size_t>(lo_it - d.freq_hz.begin()), b = static_cast<std::size_t>(hi_it - d.freq_hz.begin());
-  const std::size_t c = static_cast<std::size_t>(std::lower_bound(d.freq_hz.begin(), d.freq_hz.end(), md.freq_hz) - d.freq_hz.begin());
+  std::size_t a = static_cast<std::size_t>(lo_it - d.freq_hz.begin()),
+              b = static_cast<std::size_t>(hi_it - d.freq_hz.begin());
+  const std::size_t c = static_cast<std::size_t>(
+      std::lower_bound(d.freq_hz.begin(), d.freq_hz.end(), md.freq_hz) - d.freq_hz.begin());
   a = std::min(a, c >= 2 ? c - 2 : 0);
   b = std::max(b, std::min(d.freq_hz.size(), c + 2));
   return {a, b};
@@ -164,7 +167,8 @@ bool residual_stood_out(const FitData& d, const RationalModel& before, cplx p) {
   const auto [a, b] = lines_near(d, p);
   if (b <= a) return false;
   double chi2 = 0;
-  for (std::size_t k = a; k < b; ++k) chi2 += d.weight[k] * d.weight[k] * std::norm(before.response(d.freq_hz[k]) - d.h[k]);
+  for (std::size_t k = a; k < b; ++k)
+    chi2 += d.weight[k] * d.weight[k] * std::norm(before.response(d.freq_hz[k]) - d.h[k]);
   const double n = static_cast<double>(b - a);
   return chi2 > 2 * n + 3 * 2 * std::sqrt(n) * std::sqrt(2.0);
 }
@@ -210,7 +214,8 @@ OrderChoice choose_order(const FitData& d, const VectorFitOptions& vo, const Fit
       if (e) std::rethrow_exception(e);
     for (int n : todo) done[static_cast<std::size_t>(n)] = 1;
   };
-  int used = 0;  // the highest order the rule looked at: the table stops there, whatever the threads fitted
+  int used = 0;  // the highest order the rule looked at: the table stops there, whatever the
+                 // threads fitted
   auto fit = [&](int n) -> const FitResult& {
     used = std::max(used, n);
     if (!done[static_cast<std::size_t>(n)]) need(n + n_threads - 1);
@@ -225,13 +230,15 @@ OrderChoice choose_order(const FitData& d, const VectorFitOptions& vo, const Fit
   std::vector<std::string> notes(fits.size());
   int current = 0;
   for (int n = 1; n <= limit && current == 0; ++n)
-    if (fit(n).converged) current = n, notes[static_cast<std::size_t>(n)] = "lowest converged order";
+    if (fit(n).converged)
+      current = n, notes[static_cast<std::size_t>(n)] = "lowest converged order";
   if (current == 0) {
     c.order = 1;
     double best = fit(1).chi2;
     for (int n = 2; n <= limit; ++n)
       if (fit(n).chi2 < best) best = fit(n).chi2, c.order = n;
-    c.reason = "no order up to " + std::to_string(limit) + " converged; the lowest residual is shown";
+    c.reason =
+        "no order up to " + std::to_string(limit) + " converged; the lowest residual is shown";
   } else {
     // the last order whose residual was at least 10 % below the choice's:
     // while the residual still falls, the sweep goes on (sharp modes can make
@@ -285,28 +292,33 @@ OrderChoice choose_order(const FitData& d, const VectorFitOptions& vo, const Fit
         continue;
       }
       const Mode md = mode_of(inside.empty() ? added.front() : inside.front());
-      note = "added: " + std::string(md.real ? "real pole, corner " : "pair at ") + fmt("%.4g", md.freq_hz) + " Hz" +
+      note = "added: " + std::string(md.real ? "real pole, corner " : "pair at ") +
+             fmt("%.4g", md.freq_hz) + " Hz" +
              (added.size() > 1 ? " and " + std::to_string(added.size() - 1) + " more" : "") +
              (inside.empty() ? " (outside the band)" : "");
       current = m;
       if (limit < hard && m > limit - 3) {
         const int grown = std::min(hard, limit + 10);
-        c.warnings.push_back("the residual still fell at order " + std::to_string(m) + ": the sweep limit grew from " +
-                             std::to_string(limit) + " to " + std::to_string(grown));
+        c.warnings.push_back("the residual still fell at order " + std::to_string(m) +
+                             ": the sweep limit grew from " + std::to_string(limit) + " to " +
+                             std::to_string(grown));
         limit = grown;
       }
     }
     c.order = current;
-    c.reason = "the order sweep's rule: a higher order is taken only when its residual is at least 10 % lower, a new "
-               "pole lies inside the band, stays put over the next two orders and the lines near it stood beyond "
-               "the noise before";
+    c.reason =
+        "the order sweep's rule: a higher order is taken only when its residual is at least 10 % "
+        "lower, a new "
+        "pole lies inside the band, stays put over the next two orders and the lines near it stood "
+        "beyond "
+        "the noise before";
   }
   for (int n = 1; n <= used; ++n) {
     const FitResult& r = fits[static_cast<std::size_t>(n)];
     VectorFitOptions v = vo;
     v.order = n;
-    c.rows.push_back({n, r.chi2, aic(r, d, params_of(v)), r.nrmse, r.max_err_db, r.dof, r.converged, n == c.order,
-                      notes[static_cast<std::size_t>(n)]});
+    c.rows.push_back({n, r.chi2, aic(r, d, params_of(v)), r.nrmse, r.max_err_db, r.dof, r.converged,
+                      n == c.order, notes[static_cast<std::size_t>(n)]});
   }
   return c;
 }
@@ -357,12 +369,15 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     use.push_back(k);
   }
   if (in_band == 0)
-    throw InputError("band " + fmt_num(band.lo_hz) + ":" + fmt_num(band.hi_hz) + " Hz holds no line of the FRF (" +
-                     fmt_num(frf.freq_hz.front()) + " to " + fmt_num(frf.freq_hz.back()) + " Hz)");
+    throw InputError("band " + fmt_num(band.lo_hz) + ":" + fmt_num(band.hi_hz) +
+                     " Hz holds no line of the FRF (" + fmt_num(frf.freq_hz.front()) + " to " +
+                     fmt_num(frf.freq_hz.back()) + " Hz)");
   if (use.empty())
-    throw InputError("all " + std::to_string(in_band) + " lines in the band " + fmt_num(band.lo_hz) + " to " +
-                     fmt_num(band.hi_hz) + " Hz are untrusted (coherence at or below the zero-coherence bound, not "
-                     "excited, or a random error above " + fmt_num(100 * ident::TrustOptions{}.max_rel_err) +
+    throw InputError("all " + std::to_string(in_band) + " lines in the band " +
+                     fmt_num(band.lo_hz) + " to " + fmt_num(band.hi_hz) +
+                     " Hz are untrusted (coherence at or below the zero-coherence bound, not "
+                     "excited, or a random error above " +
+                     fmt_num(100 * ident::TrustOptions{}.max_rel_err) +
                      " %); expected a better measurement or another band");
   // Pure noise: with unrelated input and output, a fraction alpha = 1 -
   // confidence of the lines still passes the zero-coherence bound by chance,
@@ -408,10 +423,12 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
   }
 
   VectorFitOptions vo = o.vf;
-  if (o.auto_proper && !o.vf.improper && vo.domain == Domain::s) {  // in z a held input makes b0 != 0 as a rule
+  if (o.auto_proper && !o.vf.improper &&
+      vo.domain == Domain::s) {  // in z a held input makes b0 != 0 as a rule
     vo.proper = top_slope_db_per_decade(out.data) > -6.0;
-    out.proper_note = vo.proper ? "a direct term: |H| is flat at the top of the band (relative degree 0)"
-                                : "no direct term: |H| falls at the top of the band (relative degree >= 1)";
+    out.proper_note =
+        vo.proper ? "a direct term: |H| is flat at the top of the band (relative degree 0)"
+                  : "no direct term: |H| falls at the top of the band (relative degree >= 1)";
   }
   if (o.auto_delay) {
     out.delay_first_s = phase_slope_delay(out.data);
@@ -437,7 +454,8 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
     if (o.auto_delay) vo.delay_s = out.delay_first_s;
     out.result = sk_fit(out.data, vo);
   } else {
-    out.result = o.auto_delay ? fit_with_delay_search(out.data, vo, vo.delay_s, vo.order) : vector_fit(out.data, vo);
+    out.result = o.auto_delay ? fit_with_delay_search(out.data, vo, vo.delay_s, vo.order)
+                              : vector_fit(out.data, vo);
   }
   if (out.result.model.reflected > 0)
     out.warnings.push_back(std::to_string(out.result.model.reflected) +
@@ -450,8 +468,9 @@ std::string fit_summary(const FrfFit& f, const std::string& source) {
   const FitResult& r = f.result;
   const RationalModel& m = r.model;
   std::ostringstream s;
-  s << "benchid fit: " << source << ", " << f.data.freq_hz.size() << " lines " << num(f.data.freq_hz.front()) << " to "
-    << num(f.data.freq_hz.back(), 5) << " Hz (left out: " << f.left_out_unreliable << " untrusted, " << f.left_out_band
+  s << "benchid fit: " << source << ", " << f.data.freq_hz.size() << " lines "
+    << num(f.data.freq_hz.front()) << " to " << num(f.data.freq_hz.back(), 5)
+    << " Hz (left out: " << f.left_out_unreliable << " untrusted, " << f.left_out_band
     << " outside the band); weighting " << weighting_name(f.weighting) << "\n";
   if (!f.band_note.empty()) s << "  band " << f.band_note << "\n";
   if (!f.sweep.empty()) {
@@ -461,7 +480,8 @@ std::string fit_summary(const FrfFit& f, const std::string& source) {
       std::snprintf(b, sizeof b, "               %4d  %9.4g  %8.3g  %9.3g  %-4s", row.order,
                     row.dof > 0 ? row.chi2 / row.dof : 0.0, 100 * row.nrmse, row.max_err_db,
                     row.converged ? "yes" : "no");
-      s << b << (row.accepted ? "  <- chosen" : "") << (row.note.empty() ? "" : "  (" + row.note + ")") << "\n";
+      s << b << (row.accepted ? "  <- chosen" : "")
+        << (row.note.empty() ? "" : "  (" + row.note + ")") << "\n";
     }
   }
   const int n_poles = static_cast<int>(m.order());

@@ -43,13 +43,13 @@ namespace benchid::fit {
 struct FitOptions {
   VectorFitOptions vf;          // order, integrators, properness, stability, delay
   bool auto_order = false;
-  int max_order = 20;           // order sweep limit (grown by 10 at a time while the rule still adds poles
-                                // near it, up to one line per real parameter or 200)
-  bool auto_proper = false;     // decide vf.proper from the slope at the top of the band: a direct term
-                                // only where |H| is flat there (slope above -6 dB/decade)
+  int max_order = 20;  // order sweep limit (grown by 10 at a time while the rule still adds poles
+                       // near it, up to one line per real parameter or 200)
+  bool auto_proper = false;  // decide vf.proper from the slope at the top of the band: a direct
+                             // term only where |H| is flat there (slope above -6 dB/decade)
   bool auto_delay = false;
   Weighting weighting = Weighting::inverse_variance;
-  bool band_given = false;      // false: the trusted band of the FRF (ident/trusted.h)
+  bool band_given = false;                // false: the trusted band of the FRF (ident/trusted.h)
   double band_lo_hz = 0, band_hi_hz = 0;  // band_given: the lines fitted, Hz (hi 0: to the top)
   double error_floor = 0.1;     // variance weights: eps floored at this fraction of the median
   bool polynomial = false;      // Sanathanan-Koerner on the polynomial form instead of vector fitting

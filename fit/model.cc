@@ -133,7 +133,8 @@ cplx log_prod(cplx x, const std::vector<cplx>& roots) {
 }  // namespace
 
 std::vector<cplx> RationalModel::transmission_zeros() const {
-  if (proportional != 0) {  // improper: H = (h s^2 + ...)/...; the polynomial form (rare, low order)
+  if (proportional !=
+      0) {  // improper: H = (h s^2 + ...)/...; the polynomial form (rare, low order)
     const Polynomial p = polynomial();
     return polynomial_roots(p.num);
   }
@@ -149,7 +150,8 @@ std::vector<cplx> RationalModel::transmission_zeros() const {
   if (!(w0 > 0)) w0 = 1.0;
   Eigen::MatrixXd m = Eigen::MatrixXd::Zero(n + 1, n + 1), e = Eigen::MatrixXd::Zero(n + 1, n + 1);
   for (Eigen::Index i = 0; i < n; ++i) {
-    for (Eigen::Index j = 0; j < n; ++j) m(i, j) = ss.a[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] / w0;
+    for (Eigen::Index j = 0; j < n; ++j)
+      m(i, j) = ss.a[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] / w0;
     m(i, n) = ss.b[static_cast<std::size_t>(i)];
     m(n, i) = ss.c[static_cast<std::size_t>(i)] / w0;
     e(i, i) = 1.0;
@@ -183,7 +185,8 @@ std::vector<cplx> RationalModel::transmission_zeros() const {
   // near-real one at rounding level is real
   for (cplx& q : z)
     if (std::fabs(q.imag()) <= 1e-12 * std::abs(q)) q = q.real();
-  for (std::size_t i = 0; i + 1 < z.size(); ++i)  // each pair upper member first, as the poles are listed
+  for (std::size_t i = 0; i + 1 < z.size();
+       ++i)  // each pair upper member first, as the poles are listed
     if (z[i].imag() < 0 && z[i + 1] == std::conj(z[i])) std::swap(z[i], z[i + 1]), ++i;
   return z;
 }
@@ -199,7 +202,8 @@ Zpk RationalModel::zpk() const {
   // angle (of a few) farthest from every root.
   double scale = 0;
   for (const cplx& p : z.poles) scale = std::max(scale, std::abs(p));
-  for (const cplx& q : z.zeros) scale = std::max(scale, std::min(std::abs(q), 1e3 * std::max(scale, 1.0)));
+  for (const cplx& q : z.zeros)
+    scale = std::max(scale, std::min(std::abs(q), 1e3 * std::max(scale, 1.0)));
   if (domain == Domain::z) scale = 1.0;  // the unit circle is where z models live
   if (!(scale > 0)) scale = 1.0;
   cplx best = 0;

@@ -411,7 +411,8 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
     score(out, d);
   };
   finish(poles, reflected, r);
-  if (r.cycled && best_poles != poles) {  // the better of the last and the best iterate, by the fit itself
+  if (r.cycled &&
+      best_poles != poles) {  // the better of the last and the best iterate, by the fit itself
     FitResult b = r;
     finish(best_poles, best_reflected, b);
     if (b.chi2 < r.chi2) r = std::move(b);

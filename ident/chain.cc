@@ -74,7 +74,8 @@ void correct_chain(Frf& f, const ChainCorrection& c) {
     }
     if (k < f.reliable.size() && k < cal.reliable.size() && !cal.reliable[k]) f.reliable[k] = 0;
     // the combined error is held to the same limit as a measured line's (trusted.h)
-    if (k < f.reliable.size() && k < f.rel_err.size() && f.rel_err[k] > TrustOptions{}.max_rel_err) f.reliable[k] = 0;
+    if (k < f.reliable.size() && k < f.rel_err.size() && f.rel_err[k] > TrustOptions{}.max_rel_err)
+      f.reliable[k] = 0;
   }
   f.corrections.push_back("calibrated by " + name);
   if (dead)

@@ -1,8 +1,8 @@
 #include "ident/frf.h"
 
 #include <algorithm>
-#include <cstdint>
 #include <cmath>
+#include <cstdint>
 #include <functional>
 #include <limits>
 #include <memory>
@@ -222,7 +222,8 @@ Frf frf_from_spectra(const CrossSpectra& cs, std::size_t u, std::size_t y, int r
     f.guu.push_back(guu);
     f.gyy.push_back(gyy);
     f.guy.push_back(guy);
-    g_exc.push_back(r >= 0 ? cs.g(static_cast<std::size_t>(r), static_cast<std::size_t>(r), k).real() : guu);
+    g_exc.push_back(
+        r >= 0 ? cs.g(static_cast<std::size_t>(r), static_cast<std::size_t>(r), k).real() : guu);
   }
   // in a Welch estimate a line passes the coherence bound by chance where
   // nothing excited it; the exciting signal is the reference when there is one
@@ -231,10 +232,11 @@ Frf frf_from_spectra(const CrossSpectra& cs, std::size_t u, std::size_t y, int r
   std::size_t not_excited = 0;
   for (std::uint8_t e : excited) not_excited += e ? 0 : 1;
   if (not_excited > 0)
-    f.warnings.push_back(std::to_string(not_excited) + " lines not excited (the " +
-                         std::string(r >= 0 ? "reference" : "input") + "'s spectrum there more than " +
-                         fmt_num(o.trust.local_drop_db) + " dB below its level within an octave, or " +
-                         fmt_num(o.trust.global_drop_db) + " dB below its strongest): flagged unreliable");
+    f.warnings.push_back(
+        std::to_string(not_excited) + " lines not excited (the " +
+        std::string(r >= 0 ? "reference" : "input") + "'s spectrum there more than " +
+        fmt_num(o.trust.local_drop_db) + " dB below its level within an octave, or " +
+        fmt_num(o.trust.global_drop_db) + " dB below its strongest): flagged unreliable");
   return f;
 }
 
@@ -599,12 +601,15 @@ std::string summary(const Frf& f) {
   if (f.estimator == Estimator::stepped)
     s << below << " points with rel_err above the limit (flagged unreliable)";
   else
-    s << below << " lines untrusted (at or below the " << num(f.confidence * 100, 3) << " % zero-coherence bound "
-      << num(f.coherence_bound, 3) << ", not excited, or a random error above "
-      << num(100 * TrustOptions{}.max_rel_err, 3) << " %)";
+    s << below << " lines untrusted (at or below the " << num(f.confidence * 100, 3)
+      << " % zero-coherence bound " << num(f.coherence_bound, 3)
+      << ", not excited, or a random error above " << num(100 * TrustOptions{}.max_rel_err, 3)
+      << " %)";
   const TrustedBand tb = trusted_band(f);
-  if (tb.found()) s << "; trusted band " << num(tb.lo_hz, 5) << " to " << num(tb.hi_hz, 5) << " Hz";
-  else s << "; no trusted band";
+  if (tb.found())
+    s << "; trusted band " << num(tb.lo_hz, 5) << " to " << num(tb.hi_hz, 5) << " Hz";
+  else
+    s << "; no trusted band";
   if (!f.excitation.empty()) s << "\n  excitation: " << f.excitation;
   if (f.harmonics && !f.harmonics->overall_db.empty()) {
     s << "\n  harmonic distortion (log-sweep deconvolution):";

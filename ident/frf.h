@@ -45,10 +45,10 @@ const char* estimator_name(Estimator e);
 
 // What makes a line trusted (the rule is in trusted.h).
 struct TrustOptions {
-  double max_rel_err = 0.2;      // largest random error of |H| of a trusted line (phase s.d. ~11 deg)
-  double local_drop_db = 40;     // Welch: a line whose excitation is further below its level within an
-                                 // octave on either side is not excited
-  double global_drop_db = 60;    // Welch: ... or further below the excitation's strongest level
+  double max_rel_err = 0.2;   // largest random error of |H| of a trusted line (phase s.d. ~11 deg)
+  double local_drop_db = 40;  // Welch: a line whose excitation is further below its level within an
+                              // octave on either side is not excited
+  double global_drop_db = 60;  // Welch: ... or further below the excitation's strongest level
 };
 
 struct FrfOptions {

@@ -270,7 +270,8 @@ Frf read_frf_csv(const std::string& path) {
     f.rel_err.push_back(ce >= 0 ? v[static_cast<std::size_t>(ce)] : nan);
     // a file without the column: the coherence and error rule (trusted.h)
     f.reliable.push_back(cr >= 0 ? v[static_cast<std::size_t>(cr)] == 1.0
-                                 : trusted_by_error(f.coherence.back(), bound_given ? f.coherence_bound : 0.0,
+                                 : trusted_by_error(f.coherence.back(),
+                                                    bound_given ? f.coherence_bound : 0.0,
                                                     f.rel_err.back()));
     if (cd >= 0) f.distortion_pct.push_back(v[static_cast<std::size_t>(cd)]);
   }

@@ -10,13 +10,14 @@ namespace benchid::ident {
 void validate(const TrustOptions& o) {
   if (!(o.max_rel_err > 0 && o.max_rel_err <= 10))
     throw InputError("max rel_err = " + fmt_num(o.max_rel_err) + ": must be in (0, 10]");
-  if (!(o.local_drop_db > 0 && o.local_drop_db <= 300) || !(o.global_drop_db > 0 && o.global_drop_db <= 300))
-    throw InputError("excitation drop = " + fmt_num(o.local_drop_db) + " / " + fmt_num(o.global_drop_db) +
-                     " dB: each must be in (0, 300] dB");
+  if (!(o.local_drop_db > 0 && o.local_drop_db <= 300) ||
+      !(o.global_drop_db > 0 && o.global_drop_db <= 300))
+    throw InputError("excitation drop = " + fmt_num(o.local_drop_db) + " / " +
+                     fmt_num(o.global_drop_db) + " dB: each must be in (0, 300] dB");
 }
 
-std::vector<std::uint8_t> excited_lines(const std::vector<double>& freq_hz, const std::vector<double>& g,
-                                        const TrustOptions& o) {
+std::vector<std::uint8_t> excited_lines(const std::vector<double>& freq_hz,
+                                        const std::vector<double>& g, const TrustOptions& o) {
   const std::size_t n = g.size();
   std::vector<std::uint8_t> out(n, 1);
   if (n < 3 || freq_hz.size() != n) return out;
@@ -54,7 +55,8 @@ std::vector<std::uint8_t> excited_lines(const std::vector<double>& freq_hz, cons
   return out;
 }
 
-bool trusted_by_error(double coherence, double coherence_bound, double rel_err, const TrustOptions& o) {
+bool trusted_by_error(double coherence, double coherence_bound, double rel_err,
+                      const TrustOptions& o) {
   const bool coh_known = !std::isnan(coherence), err_known = !std::isnan(rel_err);
   if (coh_known && !(coherence > coherence_bound)) return false;
   if (err_known) return rel_err <= o.max_rel_err;
@@ -100,8 +102,11 @@ TrustedBand trusted_band(const Frf& f) {
 }
 
 std::string trusted_band_rule() {
-  return "from the first trusted line (coherence above its zero-coherence bound, excited, random error of |H| at "
-         "most " + fmt_num(100 * TrustOptions{}.max_rel_err) + " %) to the last one below which 90 % of the lines, "
+  return "from the first trusted line (coherence above its zero-coherence bound, excited, random "
+         "error of |H| at "
+         "most " +
+         fmt_num(100 * TrustOptions{}.max_rel_err) +
+         " %) to the last one below which 90 % of the lines, "
          "and 12 of the last 16, are trusted";
 }
 
@@ -115,7 +120,8 @@ ChosenBand choose_band(const Frf& f, bool given, double lo_hz, double hi_hz) {
     bool any = false;
     for (double fr : f.freq_hz) any |= fr >= c.lo_hz && fr <= c.hi_hz;
     if (!any)
-      throw InputError("band " + fmt_num(lo_hz) + ":" + (hi_hz > 0 ? fmt_num(hi_hz) : std::string()) +
+      throw InputError("band " + fmt_num(lo_hz) + ":" +
+                       (hi_hz > 0 ? fmt_num(hi_hz) : std::string()) +
                        " Hz holds no line of the FRF (" + fmt_num(f.freq_hz.front()) + " to " +
                        fmt_num(f.freq_hz.back()) + " Hz)");
     if (c.hi_hz == c.lo_hz) c.hi_hz = c.lo_hz * (1 + 1e-12);  // one line given exactly
@@ -126,8 +132,9 @@ ChosenBand choose_band(const Frf& f, bool given, double lo_hz, double hi_hz) {
   c.lo_hz = b.lo_hz;
   c.hi_hz = b.hi_hz;
   if (b.found())
-    c.note = fmt_num(b.lo_hz) + " to " + fmt_num(b.hi_hz) + " Hz, the trusted band (" + std::to_string(b.lines) +
-             " trusted lines; " + trusted_band_rule() + "; --band LO:HI to choose)";
+    c.note = fmt_num(b.lo_hz) + " to " + fmt_num(b.hi_hz) + " Hz, the trusted band (" +
+             std::to_string(b.lines) + " trusted lines; " + trusted_band_rule() +
+             "; --band LO:HI to choose)";
   else
     c.note = "no trusted band: " + std::to_string(b.lines) + " lines pass " + trusted_band_rule();
   return c;

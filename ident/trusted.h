@@ -37,12 +37,13 @@ void validate(const TrustOptions& o);
 
 // Which lines a Welch estimate's exciting signal reached, from its
 // autospectrum g (one value per line, frequencies ascending, Hz).
-std::vector<std::uint8_t> excited_lines(const std::vector<double>& freq_hz, const std::vector<double>& g,
-                                        const TrustOptions& o = {});
+std::vector<std::uint8_t> excited_lines(const std::vector<double>& freq_hz,
+                                        const std::vector<double>& g, const TrustOptions& o = {});
 
 // Tests 1 and 3 for one line (coherence NaN: not known, test 1 skipped;
 // rel_err NaN: undefined, not trusted unless neither is known).
-bool trusted_by_error(double coherence, double coherence_bound, double rel_err, const TrustOptions& o = {});
+bool trusted_by_error(double coherence, double coherence_bound, double rel_err,
+                      const TrustOptions& o = {});
 
 // f.reliable[k] set to the rule above; `excited` empty: every line excited.
 void mark_trusted(Frf& f, const std::vector<std::uint8_t>& excited, const TrustOptions& o = {});

@@ -1,14 +1,13 @@
 #include "loop/frf_loop.h"
 
-#include "ident/trusted.h"
-
 #include <algorithm>
 #include <cmath>
-#include <numbers>
 #include <memory>
+#include <numbers>
 #include <random>
 
 #include "ident/error.h"
+#include "ident/trusted.h"
 
 namespace benchid::loop {
 
@@ -67,8 +66,8 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
     eps.push_back(k < frf.rel_err.size() ? frf.rel_err[k] : std::numeric_limits<double>::quiet_NaN());
   }
   if (f.size() < 4)
-    throw InputError("the FRF has " + std::to_string(f.size()) + " trusted lines in the band (" + band.note +
-                     "); expected at least 4 for loop figures");
+    throw InputError("the FRF has " + std::to_string(f.size()) + " trusted lines in the band (" +
+                     band.note + "); expected at least 4 for loop figures");
   FrfMargins out;
   out.band_note = band.note;
   out.lines = f.size();

@@ -82,7 +82,8 @@ struct TuneOptions {
   double dt_s = 0;                // > 0: a discrete controller (Tustin) with this sample period
   double compute_delay_s = 0;     // delay added to the controller (computation, output hold)
   double error_sigmas = 2;        // FRF plant: margins held at estimate +- this many rel_err
-  bool frf_band_given = false;    // FRF plant: trusted lines in this band (else its trusted band, as `loop`)
+  bool frf_band_given =
+      false;  // FRF plant: trusted lines in this band (else its trusted band, as `loop`)
   double frf_band_lo_hz = 0, frf_band_hi_hz = 0;
   int plant_integrators = 0;      // FRF plant: integrators below the measured band (as `loop`)
   std::size_t grid_points = 1200; // log grid of the search (model plant), refined near resonances

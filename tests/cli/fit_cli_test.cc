@@ -82,7 +82,8 @@ TEST(FitCli, BadInputExitsTwoWithoutOutput) {
            {ok + " --order 2 --band 900:1000", "holds no line"},
            {ok + " --order two", "--order 'two' is not a number"},
            {ok + " --weighting loud", "weighting 'loud' is unknown"},
-           {d.file("nan.csv") + " --order 1", "nan.csv:3: column 're' value 'nan' is not a finite number"},
+           {d.file("nan.csv") + " --order 1",
+            "nan.csv:3: column 're' value 'nan' is not a finite number"},
        }) {
     const Outcome r = run(d, "fit " + c.args + " -o " + d.file("out.json"));
     EXPECT_EQ(r.code, 2) << c.args << "\n" << r.err;

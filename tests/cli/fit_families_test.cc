@@ -5,11 +5,10 @@
 // --delay auto`. The plants are invented; the checks are facts of the trade.
 #include <gtest/gtest.h>
 
-#include <nlohmann/json.hpp>
-
 #include <cmath>
 #include <complex>
 #include <cstdio>
+#include <nlohmann/json.hpp>
 #include <random>
 #include <string>
 #include <vector>
@@ -36,9 +35,9 @@ struct ModeSpec {
 };
 struct Family {
   std::string name;
-  std::vector<ModeSpec> modes;    // normalised pairs w^2/(s^2 + 2 zeta w s + w^2)
-  std::vector<double> corners_hz; // normalised real poles w/(s + w)
-  double zero_hz = 0;             // > 0: a zero (1 + s/w); < 0: a right-half-plane zero (1 - s/w)
+  std::vector<ModeSpec> modes;     // normalised pairs w^2/(s^2 + 2 zeta w s + w^2)
+  std::vector<double> corners_hz;  // normalised real poles w/(s + w)
+  double zero_hz = 0;              // > 0: a zero (1 + s/w); < 0: a right-half-plane zero (1 - s/w)
   double gain = 1, delay_s = 0;
 };
 
@@ -69,7 +68,8 @@ RationalModel build(const Family& f) {
 // The plant behind a zero-order hold (a drive's DAC), sampled: the exact
 // discrete model (fit/discretize, checked against SciPy), run pole by pole.
 std::vector<double> simulate(const RationalModel& plant, const std::vector<double>& u) {
-  const RationalModel zm = benchid::fit::discretize(plant, {benchid::fit::Discretization::zoh, 1 / kRateHz, 0}).model;
+  const RationalModel zm =
+      benchid::fit::discretize(plant, {benchid::fit::Discretization::zoh, 1 / kRateHz, 0}).model;
   const auto lag = static_cast<std::size_t>(std::lround(zm.delay_s * kRateHz));
   std::vector<cplx> x(zm.poles.size(), 0.0);
   std::vector<double> y(u.size(), 0.0);
@@ -85,7 +85,8 @@ std::vector<double> simulate(const RationalModel& plant, const std::vector<doubl
   return y;
 }
 
-std::string write_log(const TempDir& d, const std::vector<double>& u, const std::vector<double>& y) {
+std::string write_log(const TempDir& d, const std::vector<double>& u,
+                      const std::vector<double>& y) {
   std::string s = "# rate_hz=2000\nu,y\n";
   s.reserve(u.size() * 32);
   char b[80];
@@ -104,7 +105,12 @@ const std::vector<Family>& families() {
       {"three resonances over two decades", {{12, 0.05}, {90, 0.03}, {420, 0.02}}, {}, 0, 2, 0},
       {"right-half-plane zero", {}, {30, 100}, -60, 10, 0},
       {"lead with a 2 ms delay", {{50, 0.3}}, {}, 25, 5, 0.002},
-      {"flexible structure, 6 modes", {{20, 0.03}, {55, 0.02}, {110, 0.02}, {210, 0.015}, {330, 0.01}, {480, 0.01}}, {400}, 0, 1, 0},
+      {"flexible structure, 6 modes",
+       {{20, 0.03}, {55, 0.02}, {110, 0.02}, {210, 0.015}, {330, 0.01}, {480, 0.01}},
+       {400},
+       0,
+       1,
+       0},
       {"sharp mode, Q = 250", {{150, 0.002}}, {}, 0, 1, 0},
   };
   return f;
@@ -145,9 +151,11 @@ TEST(FitFamilies, AutoOrderAndDelayHoldOnMeasuredFrfs) {
       const std::vector<double> noise = g.take(n, std::sqrt(py) * std::pow(10.0, -snr_db / 20));
       for (std::size_t k = 0; k < n; ++k) y[k] += noise[k];
       const std::string log = write_log(d, u, y);
-      Outcome r = benchid::test::run_benchid(d, "frf " + log + " --input u --output y -o " + d.file("frf.csv"));
+      Outcome r = benchid::test::run_benchid(
+          d, "frf " + log + " --input u --output y -o " + d.file("frf.csv"));
       ASSERT_EQ(r.code, 0) << r.err;
-      r = benchid::test::run_benchid(d, "fit " + d.file("frf.csv") + " --order auto --delay auto -o " + d.file("m.json"));
+      r = benchid::test::run_benchid(
+          d, "fit " + d.file("frf.csv") + " --order auto --delay auto -o " + d.file("m.json"));
       ASSERT_EQ(r.code, 0) << r.out << r.err;
       const nlohmann::json j = nlohmann::json::parse(benchid::test::slurp(d.file("m.json")));
       const double lo = j["fit"]["band_hz"][0], hi = j["fit"]["band_hz"][1];
@@ -162,15 +170,18 @@ TEST(FitFamilies, AutoOrderAndDelayHoldOnMeasuredFrfs) {
           const auto md = benchid::fit::mode_of(p);
           found |= !md.real && std::fabs(md.freq_hz - m.f_hz) <= 0.03 * m.f_hz;
         }
-        EXPECT_TRUE(found) << "mode at " << m.f_hz << " Hz (band " << lo << " to " << hi << " Hz)\n" << r.out;
+        EXPECT_TRUE(found) << "mode at " << m.f_hz << " Hz (band " << lo << " to " << hi << " Hz)\n"
+                           << r.out;
       }
       for (const cplx& p : poles) {
         const auto md = benchid::fit::mode_of(p);
         if (md.real || md.damping >= 0.1 || md.freq_hz < lo || md.freq_hz > hi) continue;
         bool real_mode = false;
-        for (const ModeSpec& m : fam.modes) real_mode |= std::fabs(md.freq_hz - m.f_hz) <= 0.1 * m.f_hz;
-        EXPECT_TRUE(real_mode) << "a lightly damped pair at " << md.freq_hz << " Hz, damping " << md.damping
-                               << ", where the plant has none\n" << r.out;
+        for (const ModeSpec& m : fam.modes)
+          real_mode |= std::fabs(md.freq_hz - m.f_hz) <= 0.1 * m.f_hz;
+        EXPECT_TRUE(real_mode) << "a lightly damped pair at " << md.freq_hz << " Hz, damping "
+                               << md.damping << ", where the plant has none\n"
+                               << r.out;
       }
       const double chi2 = j["fit"].value("chi2", 0.0);
       const double dof = j["fit"].value("dof", 1.0);
@@ -188,8 +199,11 @@ TEST(FitFamilies, AutoOrderAndDelayHoldOnMeasuredFrfs) {
           const cplx q(zz[0].get<double>(), zz[1].get<double>());
           if (std::abs(q) > 2 * M_PI * hi) beyond_s -= -std::real(1.0 / q);
         }
-        const double truth = fam.delay_s + 0.5 / kRateHz, got = j["delay_s"].get<double>() + beyond_s;
-        EXPECT_NEAR(got, truth, std::max(0.1 / kRateHz, 0.05 * truth)) << "fitted delay " << j["delay_s"] << " s\n" << r.out;
+        const double truth = fam.delay_s + 0.5 / kRateHz,
+                     got = j["delay_s"].get<double>() + beyond_s;
+        EXPECT_NEAR(got, truth, std::max(0.1 / kRateHz, 0.05 * truth))
+            << "fitted delay " << j["delay_s"] << " s\n"
+            << r.out;
       }
     }
   }

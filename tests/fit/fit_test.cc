@@ -428,7 +428,8 @@ TEST(FitFrf, RefusesWhatTheDataCannotCarry) {
     }
     return std::string("(no error)");
   };
-  EXPECT_NE(msg().find("all 6 lines in the band 1 to 6 Hz are untrusted"), std::string::npos) << msg();
+  EXPECT_NE(msg().find("all 6 lines in the band 1 to 6 Hz are untrusted"), std::string::npos)
+      << msg();
   frf.reliable.assign(6, 1);
   o.vf.order = 10;
   EXPECT_NE(msg().find("6 lines cannot carry an order-10 fit"), std::string::npos) << msg();

@@ -72,7 +72,8 @@ double worst_match(std::vector<cplx> got, const std::vector<cplx>& want, double 
   if (got.size() != want.size()) return INFINITY;
   double worst = 0;
   for (const cplx& w : want) {
-    auto it = std::min_element(got.begin(), got.end(), [&](cplx a, cplx b) { return std::abs(a - w) < std::abs(b - w); });
+    auto it = std::min_element(got.begin(), got.end(),
+                               [&](cplx a, cplx b) { return std::abs(a - w) < std::abs(b - w); });
     worst = std::max(worst, std::abs(*it - w) / std::max(std::abs(w), 1e-3 * w0));
     got.erase(it);
   }
@@ -82,7 +83,8 @@ double worst_match(std::vector<cplx> got, const std::vector<cplx>& want, double 
 cplx sections_response(const std::vector<Section>& sec, double f_hz, double t) {
   const cplx zi = std::polar(1.0, -2 * M_PI * f_hz * t);
   cplx h = 1.0;
-  for (const Section& s : sec) h *= (s[0] + s[1] * zi + s[2] * zi * zi) / (s[3] + s[4] * zi + s[5] * zi * zi);
+  for (const Section& s : sec)
+    h *= (s[0] + s[1] * zi + s[2] * zi * zi) / (s[3] + s[4] * zi + s[5] * zi * zi);
   return h;
 }
 
@@ -105,12 +107,14 @@ TEST(Zeros, MatchTheScaledPencilOfScipyAtEveryOrder) {
     double w0 = 0;
     for (const cplx& p : c.m.poles) w0 = std::max(w0, std::abs(p));
     const Zpk z = c.m.zpk();
-    SCOPED_TRACE("order " + std::to_string(c.order) + (c.with_d ? " with direct term" : " strictly proper"));
+    SCOPED_TRACE("order " + std::to_string(c.order) +
+                 (c.with_d ? " with direct term" : " strictly proper"));
     EXPECT_EQ(z.zeros.size(), static_cast<std::size_t>(c.with_d ? c.order : c.order - 1));
     EXPECT_LT(worst_match(z.zeros, c.zeros, w0), 1e-8);
     for (const cplx& q : z.zeros) {
       double scale = std::fabs(c.m.direct);
-      for (std::size_t i = 0; i < c.m.poles.size(); ++i) scale += std::abs(c.m.residues[i] / (q - c.m.poles[i]));
+      for (std::size_t i = 0; i < c.m.poles.size(); ++i)
+        scale += std::abs(c.m.residues[i] / (q - c.m.poles[i]));
       EXPECT_LT(std::abs(c.m.rational(q)), 1e-8 * scale) << q;
     }
     // k of k prod(s - z)/prod(s - p): the first Markov parameter (SciPy's D or C B)
@@ -130,7 +134,8 @@ TEST(Zeros, MatchTheScaledPencilOfScipyAtEveryOrder) {
 // in double precision, common practice).
 TEST(Zeros, TustinAndZohMatchScipyAtEveryOrder) {
   for (const Case& c : cases()) {
-    SCOPED_TRACE("order " + std::to_string(c.order) + (c.with_d ? " with direct term" : " strictly proper"));
+    SCOPED_TRACE("order " + std::to_string(c.order) +
+                 (c.with_d ? " with direct term" : " strictly proper"));
     for (Discretization method : {Discretization::tustin, Discretization::zoh}) {
       const auto& ref = method == Discretization::tustin ? c.tustin : c.zoh;
       const Discretized d = discretize(c.m, {method, c.sample_time_s, 0});
@@ -149,15 +154,19 @@ TEST(Zeros, TustinAndZohMatchScipyAtEveryOrder) {
 // scipy's zpk2sos cascade, at 1e-8 of the largest magnitude.
 TEST(Zeros, SecondOrderSectionsReproduceTheZModelAtEveryOrder) {
   for (const Case& c : cases()) {
-    SCOPED_TRACE("order " + std::to_string(c.order) + (c.with_d ? " with direct term" : " strictly proper"));
+    SCOPED_TRACE("order " + std::to_string(c.order) +
+                 (c.with_d ? " with direct term" : " strictly proper"));
     const Discretized t = discretize(c.m, {Discretization::tustin, c.sample_time_s, 0});
     const std::vector<Section> sec = second_order_sections(t.model);
     EXPECT_EQ(sec.size(), static_cast<std::size_t>(c.order / 2));
     double peak = 0;
     for (const auto& [f, h] : c.sos) peak = std::max(peak, std::abs(h));
     for (const auto& [f, h] : c.sos) {
-      EXPECT_LT(std::abs(sections_response(sec, f, c.sample_time_s) - h), 1e-8 * peak) << f << " Hz";
-      EXPECT_LT(std::abs(sections_response(sec, f, c.sample_time_s) - t.model.response(f)), 1e-8 * peak) << f << " Hz";
+      EXPECT_LT(std::abs(sections_response(sec, f, c.sample_time_s) - h), 1e-8 * peak)
+          << f << " Hz";
+      EXPECT_LT(std::abs(sections_response(sec, f, c.sample_time_s) - t.model.response(f)),
+                1e-8 * peak)
+          << f << " Hz";
     }
   }
 }

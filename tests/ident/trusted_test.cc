@@ -20,7 +20,8 @@ using benchid::test::TempDir;
 
 namespace {
 
-Frf welch_h1(const std::vector<double>& u, const std::vector<double>& y, std::size_t segment, double fs) {
+Frf welch_h1(const std::vector<double>& u, const std::vector<double>& y, std::size_t segment,
+             double fs) {
   FrfOptions o;
   o.welch.segment = segment;
   WelchAccumulator acc(o.welch, 2);
@@ -91,7 +92,8 @@ TEST(TrustedLines, LinesBetweenTheTonesOfAMultisineAreNotExcited) {
   std::vector<double> u(n, 0.0);
   for (std::size_t tone = 16; tone < 200; tone += 16)
     for (std::size_t i = 0; i < n; ++i)
-      u[i] += std::cos(2 * M_PI * static_cast<double>(tone * i) / seg + 0.37 * static_cast<double>(tone));
+      u[i] += std::cos(2 * M_PI * static_cast<double>(tone * i) / seg +
+                       0.37 * static_cast<double>(tone));
   Gaussian g(7);
   std::vector<double> y = Biquad::butterworth_lowpass(0.1).filter(u);
   const std::vector<double> noise = g.take(n, 0.05);
@@ -114,14 +116,15 @@ TEST(TrustedLines, AFileWithoutTheColumnFallsBackToCoherenceAndError) {
   const std::string path = d.write("old.csv",
                                    "# benchid frf 1\n# coherence_bound=0.05\n"
                                    "freq_hz,re,im,coherence,rel_err\n"
-                                   "1,1,0,0.99,0.01\n"     // trusted
-                                   "2,1,0,0.04,0.01\n"     // under the coherence bound
-                                   "3,1,0,0.6,0.25\n"      // random error above 20 %
-                                   "4,1,0,0.9,\n"          // error undefined
-                                   "5,1,0,1,0\n");         // perfect
+                                   "1,1,0,0.99,0.01\n"  // trusted
+                                   "2,1,0,0.04,0.01\n"  // under the coherence bound
+                                   "3,1,0,0.6,0.25\n"   // random error above 20 %
+                                   "4,1,0,0.9,\n"       // error undefined
+                                   "5,1,0,1,0\n");      // perfect
   const Frf f = read_frf_csv(path);
   ASSERT_EQ(f.size(), 5u);
-  EXPECT_EQ(std::vector<int>(f.reliable.begin(), f.reliable.end()), (std::vector<int>{1, 0, 0, 0, 1}));
+  EXPECT_EQ(std::vector<int>(f.reliable.begin(), f.reliable.end()),
+            (std::vector<int>{1, 0, 0, 0, 1}));
   // a hand-made file with a response only: nothing known against it
   const Frf bare = read_frf_csv(d.write("bare.csv", "freq_hz,re,im\n1,1,0\n2,1,0\n"));
   EXPECT_EQ(std::vector<int>(bare.reliable.begin(), bare.reliable.end()), (std::vector<int>{1, 1}));
@@ -136,7 +139,8 @@ TEST(TrustedLines, TheTrustedBandIgnoresScatteredLinesAbove) {
     f.h.push_back(1.0);
     f.coherence.push_back(0.9);
     f.rel_err.push_back(0.02);
-    f.reliable.push_back(k <= 150 ? (k % 25 != 0) : (k % 20 == 0));  // 4 % missing below, 5 % passing above
+    f.reliable.push_back(k <= 150 ? (k % 25 != 0)
+                                  : (k % 20 == 0));  // 4 % missing below, 5 % passing above
   }
   const TrustedBand b = trusted_band(f);
   EXPECT_EQ(b.lo_hz, 1.0);
