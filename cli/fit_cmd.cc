@@ -193,7 +193,7 @@ void add_fit_options(CLI::App* c, FitArgs& a, bool pipeline) {
               "(default: decided by the slope of |H| over the top fifth of the band, a direct term "
               "only where it "
               "is flat, above -6 dB/decade)");
-  c->add_flag("--direct", a.direct, "Always fit a direct term d (relative degree 0)");
+  c->add_flag("--direct", a.direct, "Always fit a direct term d (relative degree 0) (default off: decided by the slope, see --strictly-proper)");
   c->add_flag("--improper", a.improper, "Allow a term proportional to s (rising response)");
   c->add_flag("--allow-unstable", a.allow_unstable, "Keep right-half-plane poles instead of reflecting them");
   c->add_option("--method", a.method, "vf (vector fitting) or sk (Sanathanan-Koerner iteration on the polynomial "

@@ -70,6 +70,7 @@ FrfMargins frf_margins(const ident::Frf& frf, const Controller& c, const FrfLoop
                      band.note + "); expected at least 4 for loop figures");
   FrfMargins out;
   out.band_note = band.note;
+  out.band_lo_hz = band.lo_hz, out.band_hi_hz = band.hi_hz;
   out.lines = f.size();
   out.left_out = left_out;
   const double lo = f.front(), hi = f.back();

@@ -29,6 +29,7 @@ struct FrfMargins {
   Margins nominal;
   std::size_t lines = 0, left_out = 0;
   std::string band_note;  // the band used, and how it was chosen
+  double band_lo_hz = 0, band_hi_hz = 0;  // that band, Hz
   // Monte Carlo spreads (1 s.d.); NaN when the FRF has no rel_err
   double pm_sd_deg = std::numeric_limits<double>::quiet_NaN();
   double gm_sd_db = std::numeric_limits<double>::quiet_NaN();

@@ -772,13 +772,11 @@ TuneResult tune_frf(const ident::Frf& frf, const TuneOptions& o) {
   fo.band_given = o.frf_band_given;
   fo.band_lo_hz = o.frf_band_lo_hz, fo.band_hi_hz = o.frf_band_hi_hz;
   const FrfMargins fm = frf_margins(frf, parse_controller("gain:k=1"), fo);
-  const ident::ChosenBand band =
-      ident::choose_band(frf, fo.band_given, fo.band_lo_hz, fo.band_hi_hz);
-  // the lines used (as frf_margins uses them), and their error bound
+  // the lines used (frf_margins' band and rule), and their error bound
   std::vector<double> lf, le;
   for (std::size_t k = 0; k < frf.size(); ++k) {
     const double e = k < frf.rel_err.size() ? frf.rel_err[k] : std::numeric_limits<double>::quiet_NaN();
-    if (frf.freq_hz[k] < band.lo_hz || frf.freq_hz[k] > band.hi_hz || !ident::is_trusted(frf, k))
+    if (frf.freq_hz[k] < fm.band_lo_hz || frf.freq_hz[k] > fm.band_hi_hz || !ident::is_trusted(frf, k))
       continue;
     lf.push_back(frf.freq_hz[k]);
     le.push_back(std::isfinite(e) ? o.error_sigmas * e : 0.0);
