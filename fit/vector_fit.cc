@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <memory>
 #include <numbers>
 
 #include "ident/error.h"
@@ -40,6 +41,9 @@ void validate(const VectorFitOptions& o) {
       throw InputError("sample time = " + fmt_num(o.sample_time_s) + " s: a z-domain fit needs a positive sample time");
     if (o.improper) throw InputError("a z-domain model has no term in s; expected no --improper");
   }
+  if (!o.start_poles.empty() && static_cast<int>(o.start_poles.size()) != o.order)
+    throw InputError(std::to_string(o.start_poles.size()) + " starting poles for an order-" +
+                     std::to_string(o.order) + " fit; expected as many as the order");
 }
 
 namespace {
@@ -95,10 +99,10 @@ void basis(const std::vector<cplx>& poles, cplx s, std::vector<cplx>& phi) {
   }
 }
 
-// Solves min ||A x - y|| with columns scaled to unit length: by pivoted
-// Householder QR, or, when `rough` (poles still far from their places, so the
-// answer is only a step), by the normal equations at a third of the cost,
-// falling back to QR if their Cholesky factorisation fails.
+// Solves min ||A x - y|| with columns scaled to unit length: by Householder
+// QR, or, when `normal` (the relocation's large problem), by refined normal
+// equations at a third of the cost, falling back to QR when they cannot give
+// the answer to working accuracy.
 // Storage kept across the iterations of one fit, so that the large
 // least-squares matrix and the QR factorisation's copy of it are allocated
 // once, not once per iteration (on a 5000-line order-60 fit each is 20 MB,
@@ -106,31 +110,86 @@ void basis(const std::vector<cplx>& poles, cplx s, std::vector<cplx>& phi) {
 struct Workspace {
   Mat a;
   Vec y;
-  Eigen::ColPivHouseholderQR<Mat> qr;
+  Eigen::HouseholderQR<Mat> qr;
+  Eigen::ColPivHouseholderQR<Mat> pqr;
+  bool pivoted = false;        // the unpivoted QR found the problem rank-deficient: the
+                               // pivoted one from then on
+  bool normal_failed = false;  // the normal equations could not give an exact answer in this
+                               // fit: the QR from then on (a nearly rank-deficient problem
+                               // stays so while the poles settle)
 };
 
-Vec solve_scaled(Mat& a, const Vec& y, bool rough = false, Eigen::ColPivHouseholderQR<Mat>* qr = nullptr) {
+// Blocked Householder QR (no pivoting: the columns are scaled to unit length,
+// so a tiny diagonal of R means a nearly dependent column); when R's diagonal
+// spans more than 1e10, the rank-revealing pivoted QR decides instead.
+// `pivoted`, when given, remembers a rank-deficient answer: the pivoted QR at
+// once from then on.
+Vec qr_solve(const Mat& a, const Vec& y, Eigen::HouseholderQR<Mat>* qr, bool* pivoted = nullptr,
+             Eigen::ColPivHouseholderQR<Mat>* pqr = nullptr) {
+  if (!pivoted || !*pivoted) {
+    Eigen::HouseholderQR<Mat> local;
+    Eigen::HouseholderQR<Mat>& q = qr ? *qr : local;
+    q.compute(a);
+    const auto d = q.matrixQR().diagonal().cwiseAbs();
+    if (d.size() > 0 && d.minCoeff() > 1e-10 * d.maxCoeff()) {
+      Vec x = q.solve(y);
+      if (x.allFinite()) return x;
+    }
+    if (pivoted) *pivoted = true;
+  }
+  if (pqr) return pqr->compute(a).solve(y);
+  return a.colPivHouseholderQr().solve(y);
+}
+
+// How solve_scaled may use the normal equations: not at all (QR), for a step
+// (the poles are still far from their places: a relative error of 1e-4 in
+// the answer does not matter), or to working accuracy.
+enum class Normal { no, step, exact };
+
+// (qr, pqr: storage kept across calls; residual: ||A x - y||; normal_failed,
+// pivoted: see Workspace)
+Vec solve_scaled(Mat& a, const Vec& y, Normal normal = Normal::no,
+                 Eigen::HouseholderQR<Mat>* qr = nullptr, double* residual = nullptr,
+                 bool* normal_failed = nullptr, bool* pivoted = nullptr,
+                 Eigen::ColPivHouseholderQR<Mat>* pqr = nullptr) {
+  if (normal != Normal::no) {
+    // semi-normal equations with a step of refinement (Bjorck 1987), the
+    // column scaling done on the Gram matrix: a third of a QR's cost. The
+    // correction measures the error of the first solution (about cond^2
+    // eps); when it is below 1e-6 of x, the refined one is accurate to about
+    // its square, else (for an exact answer) the QR decides. A column within
+    // 1e-5 of the span of the others (a diagonal of the scaled Cholesky
+    // factor below 1e-5: cond(A) >= 1e5, the problem nearly rank-deficient,
+    // as when poles cancel zeros) goes to the QR at once, whose pivoting
+    // gives the basic solution.
+    Mat g = Mat::Zero(a.cols(), a.cols());
+    g.selfadjointView<Eigen::Lower>().rankUpdate(a.transpose());
+    Vec d(a.cols());
+    for (Eigen::Index j = 0; j < a.cols(); ++j) d(j) = g(j, j) > 0 ? 1.0 / std::sqrt(g(j, j)) : 1.0;
+    g = g.selfadjointView<Eigen::Lower>();  // both triangles
+    g = d.asDiagonal() * g * d.asDiagonal();
+    Eigen::LLT<Mat> llt(g);
+    const auto ld = llt.matrixLLT().diagonal().cwiseAbs();
+    if (llt.info() == Eigen::Success && ld.minCoeff() >= 1e-5 * ld.maxCoeff()) {
+      Vec x = d.cwiseProduct(llt.solve(d.cwiseProduct(a.transpose() * y)));
+      Vec r = y - a * x;
+      const Vec dx = d.cwiseProduct(llt.solve(d.cwiseProduct(a.transpose() * r)));
+      x += dx;
+      if (x.allFinite() && (normal == Normal::step || dx.norm() <= 1e-6 * x.norm())) {
+        if (residual) *residual = (y - a * x).norm();
+        return x;
+      }
+    }
+    if (normal_failed && normal == Normal::exact) *normal_failed = true;
+  }
   Vec scale(a.cols());
   for (Eigen::Index j = 0; j < a.cols(); ++j) {
     const double n = a.col(j).norm();
     scale(j) = n > 0 ? 1.0 / n : 1.0;
     a.col(j) *= scale(j);
   }
-  Vec x;
-  bool done = false;
-  if (rough) {
-    Mat g = Mat::Zero(a.cols(), a.cols());
-    g.selfadjointView<Eigen::Lower>().rankUpdate(a.transpose());
-    Eigen::LLT<Mat> llt(g.selfadjointView<Eigen::Lower>());
-    if (llt.info() == Eigen::Success) {
-      x = llt.solve(a.transpose() * y);
-      done = x.allFinite();
-    }
-  }
-  if (!done) {
-    if (qr) x = qr->compute(a).solve(y);
-    else x = a.colPivHouseholderQr().solve(y);
-  }
+  const Vec x = qr_solve(a, y, qr, pivoted, pqr);
+  if (residual) *residual = (a * x - y).norm();
   Vec unscaled = x.cwiseProduct(scale);
   for (Eigen::Index j = 0; j < a.cols(); ++j) a.col(j) /= scale(j);
   return unscaled;
@@ -186,7 +245,7 @@ void fit_residues(const Prepared& p, const std::vector<cplx>& poles, const Vecto
     y(r) = p.w[k] * p.g[k].real();
     y(r + 1) = p.w[k] * p.g[k].imag();
   }
-  const Vec x = solve_scaled(a, y);
+  const Vec x = solve_scaled(a, y, Normal::exact);
   m.poles = poles;
   m.residues.assign(poles.size(), 0.0);
   Eigen::Index c = 0;
@@ -247,8 +306,11 @@ std::vector<cplx> relocate(const Prepared& p, const std::vector<cplx>& poles, co
     a(rows - 1, cs) += relax_w;
   }
   y(rows - 1) = relax_w * static_cast<double>(lines);
-  Vec x = solve_scaled(a, y, rough, &ws.qr);
-  *residual = (a * x - y).norm();
+  Vec x = solve_scaled(a, y,
+                       ws.normal_failed ? Normal::no
+                       : rough          ? Normal::step
+                                        : Normal::exact,
+                       &ws.qr, residual, &ws.normal_failed, &ws.pivoted, &ws.pqr);
   Vec ct = x.segment(num_cols, n);
   double dt = x(cols - 1);
   if (std::fabs(dt) < 1e-8) {
@@ -343,16 +405,20 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
   const auto first_ac = std::find_if(p.omega.begin(), p.omega.end(), [](double w) { return w > 0; });
   if (first_ac == p.omega.end()) throw InputError("only a DC line to fit; expected lines above 0 Hz");
   const double w_lo = *first_ac, w_hi = p.omega.back();
+  if (o.domain == Domain::z && w_hi * o.sample_time_s >= std::numbers::pi * (1 + 1e-9))
+    throw InputError("lines above Nyquist of the sample time " + fmt_num(o.sample_time_s) +
+                     " s; expected a band below " + fmt_num(0.5 / o.sample_time_s) + " Hz");
   std::vector<cplx> poles = starting_poles(o.order, w_lo, w_hi);
-  if (o.domain == Domain::z) {
-    if (w_hi * o.sample_time_s >= std::numbers::pi * (1 + 1e-9))
-      throw InputError("lines above Nyquist of the sample time " + fmt_num(o.sample_time_s) + " s; expected a band below " +
-                       fmt_num(0.5 / o.sample_time_s) + " Hz");
+  if (!o.start_poles.empty()) {
+    poles = canonical(o.start_poles, false, nullptr, o.domain);
+    if (poles.size() != o.start_poles.size())
+      throw InputError("the starting poles are not closed under conjugation");
+  } else if (o.domain == Domain::z) {
     for (cplx& q : poles) q = std::exp(q * o.sample_time_s);
     poles = canonical(poles, false, nullptr, Domain::z);
   }
   FitResult r;
-  Workspace ws;
+  auto ws = std::make_unique<Workspace>();
   int reflected = 0, still = 0;
   double last_res = -1, last_move = 1.0;
   // the best iterate by the relocation residual, and when it was reached:
@@ -360,11 +426,12 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
   // it (converged when the residual has stopped improving), not failed
   std::vector<cplx> best_poles = poles;
   double best_res = std::numeric_limits<double>::infinity();
-  int best_at = 0, best_reflected = 0;
+  int best_reflected = 0, stall_at = 0;
+  double stall_res = std::numeric_limits<double>::infinity();
   for (int it = 0; it < o.max_iterations; ++it) {
     int refl_now = 0;
     double res = 0;
-    std::vector<cplx> next = relocate(p, poles, o, &refl_now, &res, last_move > 1e-2, ws);
+    std::vector<cplx> next = relocate(p, poles, o, &refl_now, &res, last_move > 1e-2, *ws);
     double move = 0;
     if (next.size() == poles.size()) {
       for (std::size_t i = 0; i < next.size(); ++i)
@@ -372,7 +439,7 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
     } else {
       move = 1.0;  // a pair became two real poles or back
     }
-    if (res < best_res) best_res = res, best_at = it, best_poles = next, best_reflected = refl_now;
+    if (res < best_res) best_res = res, best_poles = next, best_reflected = refl_now;
     poles = next;
     last_move = move;
     reflected = refl_now;
@@ -385,22 +452,31 @@ FitResult vector_fit(const FitData& d, const VectorFitOptions& o) {
     // move by less than 1e-3, a weighted residual of the relocation problem
     // that no longer changes (1e-7 relative, three iterations running)
     // counts as converged too.
-    still = move < 1e-3 && last_res >= 0 && std::fabs(res - last_res) <= 1e-7 * std::max(res, 1e-300) ? still + 1 : 0;
+    still = move < 1e-3 && last_res >= 0 &&
+                    std::fabs(res - last_res) <= 100 * o.tolerance * std::max(res, 1e-300)
+                ? still + 1
+                : 0;
     last_res = res;
     if (still >= 3) {
       r.converged = true;
       break;
     }
-    // cycling: 15 iterations without any better residual than the best
-    // (slow steady progress is not cycling), the poles moving less than 5
-    // %: the best iterate
-    if (it - best_at >= 15 && move < 0.05) {
-      r.converged = true;
-      r.cycled = true;
-      break;
+    // cycling: 15 iterations (10 when stopping when stalled) in which the
+    // residual did not fall 0.1 % below its best (steady progress is not
+    // cycling), the poles moving less than 5 %: the best iterate; stalled
+    // with the poles still moving: not converged, and the fit ends when
+    // asked to
+    if (res < stall_res * (1 - 1e-3)) stall_res = res, stall_at = it;
+    if (it - stall_at >= (o.stop_when_stalled ? 10 : 15)) {
+      if (move < 0.05) {
+        r.converged = true;
+        r.cycled = true;
+        break;
+      }
+      if (o.stop_when_stalled) break;
     }
   }
-  ws = Workspace();  // freed before the residue fit allocates its own matrix
+  ws.reset();  // freed before the residue fit allocates its own matrix
   auto finish = [&](const std::vector<cplx>& ps, int refl, FitResult& out) {
     fit_residues(p, ps, o, out.model);
     out.model.integrators = o.integrators;

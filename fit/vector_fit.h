@@ -41,6 +41,12 @@ struct VectorFitOptions {
   double sample_time_s = 0;     // T, domain z only
   int max_iterations = 50;      // pole relocations
   double tolerance = 1e-9;      // convergence: largest relative pole move
+  bool stop_when_stalled = false;  // end (not converged) after 10 relocations in which the
+                                   // residual did not fall 0.1 % below its best (for an order
+                                   // sweep, whose rule needs 10 % effects)
+  std::vector<cplx> start_poles;   // empty: the standard start (pairs log-spaced over the band);
+                                   // else `order` poles to start from, closed under conjugation,
+                                   // in the model's domain (s: rad/s; z: the z-plane)
 };
 void validate(const VectorFitOptions& o);
 
