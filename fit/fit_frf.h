@@ -73,6 +73,7 @@ struct FrfFit {
   std::string band_note;                  // which band, and how it was chosen
   Weighting weighting = Weighting::inverse_variance;
   std::vector<OrderRow> sweep;   // order "auto" only
+  std::string sweep_note;        // order "auto": the lines the sweep fitted, when not all
   std::string order_reason;      // how the order was chosen
   std::string proper_note;       // auto_proper: why a direct term was or was not fitted
   double delay_first_s = 0;      // delay "auto": the phase-slope estimate
