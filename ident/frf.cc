@@ -237,6 +237,16 @@ Frf frf_from_spectra(const CrossSpectra& cs, std::size_t u, std::size_t y, int r
         std::string(r >= 0 ? "reference" : "input") + "'s spectrum there more than " +
         fmt_num(o.trust.local_drop_db) + " dB below its level within an octave, or " +
         fmt_num(o.trust.global_drop_db) + " dB below its strongest): flagged unreliable");
+  const LineSpectrum ls = line_spectrum(f.freq_hz, g_exc);
+  if (ls.found)
+    f.warnings.push_back(
+        "the " + std::string(r >= 0 ? "reference" : "input") +
+        " has a line spectrum: " + std::to_string(ls.tones) + " tones from " + fmt_num(ls.lo_hz) +
+        " to " + fmt_num(ls.hi_hz) + " Hz, and 90 % of its power on " +
+        std::to_string(ls.lines_90) + " of the band's " + std::to_string(ls.band_lines) +
+        " lines (a multisine or another periodic signal?); Welch averaging leaves the "
+        "lines between them unexcited and smears each tone over its neighbours: analyse whole "
+        "periods with --excitation SIDECAR (the JSON 'benchid excite' wrote beside the signal)");
   return f;
 }
 

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <functional>
 
 #include "ident/error.h"
 
@@ -53,6 +54,59 @@ std::vector<std::uint8_t> excited_lines(const std::vector<double>& freq_hz,
     out[k] = gk >= global_floor && gk >= local * local_ratio;
   }
   return out;
+}
+
+LineSpectrum line_spectrum(const std::vector<double>& freq_hz, const std::vector<double>& g) {
+  LineSpectrum ls;
+  const std::size_t n = g.size();
+  if (n < 17 || freq_hz.size() != n) return ls;
+  double total = 0;
+  for (double v : g) total += std::isfinite(v) && v > 0 ? v : 0;
+  if (!(total > 0)) return ls;
+  std::vector<double> win;
+  for (std::size_t k = 0; k < n; ++k) {
+    if (!(std::isfinite(g[k]) && g[k] > 0)) continue;
+    const std::size_t a = k >= 8 ? k - 8 : 0, b = std::min(n, k + 9);
+    bool peak = true;
+    win.clear();
+    for (std::size_t j = a; j < b; ++j) {
+      const double v = std::isfinite(g[j]) ? g[j] : 0;
+      win.push_back(v);
+      if (j != k && v > g[k]) peak = false;
+    }
+    if (!peak) continue;
+    std::nth_element(win.begin(), win.begin() + static_cast<long>(win.size() / 2), win.end());
+    if (!(g[k] >= 100 * win[win.size() / 2])) continue;
+    ++ls.tones;
+    if (ls.tones == 1) ls.lo_hz = freq_hz[k];
+    ls.hi_hz = freq_hz[k];
+  }
+  // the band: from the first to the last line within 30 dB of the strongest;
+  // the fewest lines that hold 90 % of the power in it
+  const double top = *std::max_element(g.begin(), g.end(), [](double x, double y) {
+    return (std::isfinite(x) ? x : 0) < (std::isfinite(y) ? y : 0);
+  });
+  std::size_t first = n, last = 0;
+  for (std::size_t k = 0; k < n; ++k)
+    if (std::isfinite(g[k]) && g[k] >= 1e-3 * top) first = std::min(first, k), last = k;
+  std::vector<double> band;
+  double in_band = 0;
+  for (std::size_t k = first; k <= last && first < n; ++k) {
+    const double v = std::isfinite(g[k]) && g[k] > 0 ? g[k] : 0;
+    band.push_back(v);
+    in_band += v;
+  }
+  std::sort(band.begin(), band.end(), std::greater<double>());
+  double acc = 0;
+  for (double v : band) {
+    if (acc >= 0.9 * in_band) break;
+    acc += v;
+    ++ls.lines_90;
+  }
+  ls.band_lines = band.size();
+  ls.found = ls.tones >= 5 && ls.band_lines > 0 &&
+             static_cast<double>(ls.lines_90) <= 0.25 * static_cast<double>(ls.band_lines);
+  return ls;
 }
 
 bool trusted_by_error(double coherence, double coherence_bound, double rel_err,

@@ -40,6 +40,24 @@ void validate(const TrustOptions& o);
 std::vector<std::uint8_t> excited_lines(const std::vector<double>& freq_hz,
                                         const std::vector<double>& g, const TrustOptions& o = {});
 
+// Whether the exciting signal has a line spectrum (a multisine or another
+// periodic signal analysed by Welch): "tones" are lines whose autospectrum
+// is the largest of the 17 lines around it and 20 dB or more above their
+// median (a random, PRBS or swept input varies by a few dB from line to line
+// after averaging, so none is); a line spectrum when there are at least 5
+// tones and 90 % of the power within the band (the first to the last line
+// within 30 dB of the strongest) sits on at most a quarter of its lines
+// (white noise: about 86 %; a multisine of 57 log-spaced lines analysed
+// with 4096-sample Hann segments: 13 %). Both tests: a steep but smooth
+// spectrum (low-pass noise) concentrates its power too, but has no tones.
+struct LineSpectrum {
+  bool found = false;
+  std::size_t tones = 0;
+  std::size_t lines_90 = 0, band_lines = 0;  // lines holding 90 % of the band's power; the band's
+  double lo_hz = 0, hi_hz = 0;               // lowest and highest tone
+};
+LineSpectrum line_spectrum(const std::vector<double>& freq_hz, const std::vector<double>& g);
+
 // Tests 1 and 3 for one line (coherence NaN: not known, test 1 skipped;
 // rel_err NaN: undefined, not trusted unless neither is known).
 bool trusted_by_error(double coherence, double coherence_bound, double rel_err,

@@ -95,6 +95,44 @@ TEST(ExciteCli, MultisineSidecarDrivesPeriodicFrf) {
   }
 }
 
+TEST(ExciteCli, MultisineRecordWithoutItsSidecarIsNoticed) {
+  // the same chain, but frf without --excitation: Welch runs, and says the
+  // input has a line spectrum and to give the sidecar (ident/trusted.h)
+  TempDir d;
+  Outcome r =
+      run(d, "excite multisine --rate 1000 --f0 2 --f1 200 --resolution 0.5 --repeat 30 -o " +
+                 d.file("ms.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  const auto sig = benchid::ident::read_record(d.file("ms.csv"));
+  const auto lp = benchid::test::Biquad::butterworth_lowpass(0.05);
+  const auto y = lp.filter(sig.samples[0]);
+  std::string s = "time_s,u,y\n";
+  char b[100];
+  for (std::size_t i = 0; i < y.size(); ++i) {
+    std::snprintf(b, sizeof b, "%.17g,%.17g,%.17g\n", i / 1000.0, sig.samples[0][i], y[i]);
+    s += b;
+  }
+  d.write("rec.csv", s);
+  r = run(d, "frf " + d.file("rec.csv") + " --input u --output y -o " + d.file("frf.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_NE(r.err.find("the input has a line spectrum"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("--excitation"), std::string::npos) << r.err;
+  // a random input through the same filter: no such warning
+  benchid::test::Gaussian g(1);
+  std::vector<double> u(sig.samples[0].size());
+  for (double& v : u) v = g();
+  const auto y2 = lp.filter(u);
+  s = "time_s,u,y\n";
+  for (std::size_t i = 0; i < y2.size(); ++i) {
+    std::snprintf(b, sizeof b, "%.17g,%.17g,%.17g\n", i / 1000.0, u[i], y2[i]);
+    s += b;
+  }
+  d.write("rand.csv", s);
+  r = run(d, "frf " + d.file("rand.csv") + " --input u --output y -o " + d.file("frf2.csv"));
+  ASSERT_EQ(r.code, 0) << r.err;
+  EXPECT_EQ(r.err.find("line spectrum"), std::string::npos) << r.err;
+}
+
 TEST(ExciteCli, LogSweepRecordReportsHarmonicDistortion) {
   // y = u + 0.1 u^2 + 0.01 u^3 on a 0.8-amplitude exponential sweep: a sine of
   // amplitude A gives a 2nd harmonic 0.1 A^2/2 and a 3rd 0.01 A^3/4 against a
