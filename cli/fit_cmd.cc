@@ -70,7 +70,11 @@ fit::FitOptions fit_options(const FitArgs& a) {
 void require_converged(const fit::FrfFit& f) {
   if (!f.result.converged)
     throw NoResult("the fit did not converge in " + std::to_string(f.result.iterations) +
-                   " iterations; try a lower --order, a narrower --band or --weighting relative");
+                   " iterations at order " +
+                   std::to_string(f.result.model.order() - f.result.model.integrators) + "; " +
+                   (f.alternative.empty()
+                        ? "try a lower --order, a narrower --band or --weighting relative"
+                        : f.alternative));
 }
 
 fit::FitSummary fit_record(const fit::FrfFit& f, const std::string& source) {

@@ -433,6 +433,36 @@ OrderChoice choose_order(const FitData& d, const VectorFitOptions& vo, const Fit
   return c;
 }
 
+// For a fit that did not converge: the highest of the 12 orders below it that
+// converges on the same lines with the same options (from the standard
+// start), said with its fit quality; else that none does, and what to change.
+std::string what_would_work(const FrfFit& f, VectorFitOptions vo, const FitOptions& o) {
+  vo.start_poles.clear();
+  const int order = vo.order;
+  const std::string band =
+      fmt_num(f.data.freq_hz.front()) + " to " + fmt_num(f.data.freq_hz.back()) + " Hz";
+  const int lowest = std::max(1, order - 12);  // a failure costs at most 12 more fits
+  for (int n = order - 1; n >= lowest; --n) {
+    vo.order = n;
+    const FitResult r = vector_fit(f.data, vo);
+    if (r.converged)
+      return "order " + std::to_string(n) + " converges on the same lines (" + band + "; NRMSE " +
+             fmt("%.3g", 100 * r.nrmse) + " %" +
+             (r.dof > 0 ? ", chi2/dof " + fmt("%.3g", r.chi2 / r.dof) : std::string()) +
+             "): --order " + std::to_string(n);
+  }
+  return (order > 1 ? "no order from " + std::to_string(lowest) + " to " +
+                          std::to_string(order - 1) + " converges either"
+                    : std::string("")) +
+         std::string(order > 1 ? " on the lines of " : "the lines are ") + band +
+         (o.band_given ? "; try the trusted band (no --band)" : "; try a narrower --band") +
+         (o.auto_order ? "" : ", --order auto") + ", --weighting relative" +
+         (vo.max_iterations < VectorFitOptions{}.max_iterations
+              ? " or more than " + std::to_string(vo.max_iterations) +
+                    " iterations (--max-iterations)"
+              : std::string());
+}
+
 }  // namespace
 
 FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
@@ -604,6 +634,7 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
         out.result = std::move(cold);
     }
   }
+  if (!out.result.converged) out.alternative = what_would_work(out, vo, o);
   if (out.result.model.reflected > 0)
     out.warnings.push_back(std::to_string(out.result.model.reflected) +
                            " unstable poles were reflected into the left half plane: this changes the phase and "

@@ -78,6 +78,8 @@ struct FrfFit {
   std::string proper_note;       // auto_proper: why a direct term was or was not fitted
   double delay_first_s = 0;      // delay "auto": the phase-slope estimate
   std::vector<std::string> warnings;
+  std::string alternative;  // a fit that did not converge: which lower order does (or that
+                            // none does, and what to change)
 };
 
 FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o);
