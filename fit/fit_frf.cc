@@ -433,6 +433,65 @@ OrderChoice choose_order(const FitData& d, const VectorFitOptions& vo, const Fit
   return c;
 }
 
+// Spurious-mode pruning (order "auto"): a pole pair (or real pole) whose
+// modal term, sum of r/(s - p) over the pair, stands less than 5 sigma above
+// the noise on every line near it (3 half-power bandwidths, see lines_near;
+// sigma = 1/w, the line's standard deviation) is a candidate; it is removed
+// when the fit without it, started from the other poles, converges, is not
+// 10 % or more worse overall (the sweep's effect size) and leaves the lines
+// near it within the noise (residual_stood_out). Weakest candidate first, at
+// most 8. A sharp mode spanning one or two lines stands far above 5 sigma
+// there and is kept; a pair cancelled by a zero has a tiny residue and goes.
+}  // namespace
+
+std::vector<std::string> prune_spurious_modes(const FitData& d, VectorFitOptions vo, FitResult& r) {
+  std::vector<std::string> notes;
+  for (int round = 0; round < 8; ++round) {
+    const RationalModel& m = r.model;
+    double weakest = 5;
+    std::size_t at = m.poles.size();
+    for (std::size_t i = 0; i < m.poles.size(); ++i) {
+      const cplx p = m.poles[i];
+      if (p.imag() < 0) continue;
+      const bool pair = p.imag() > 0;
+      const auto [a, b] = lines_near(d, p);
+      double peak = 0;
+      for (std::size_t k = a; k < b; ++k) {
+        const cplx s = m.domain == Domain::z
+                           ? std::polar(1.0, 2 * std::numbers::pi * d.freq_hz[k] * m.sample_time_s)
+                           : cplx(0, 2 * std::numbers::pi * d.freq_hz[k]);
+        cplx term = m.residues[i] / (s - p);
+        if (pair) term += std::conj(m.residues[i]) / (s - std::conj(p));
+        peak = std::max(peak, d.weight[k] * std::abs(term));
+      }
+      if (peak < weakest) weakest = peak, at = i;
+    }
+    if (at == m.poles.size()) break;
+    const cplx p = m.poles[at];
+    std::vector<cplx> rest;
+    for (std::size_t i = 0; i < m.poles.size(); ++i)
+      if (m.poles[i] != p && m.poles[i] != std::conj(p)) rest.push_back(m.poles[i]);
+    if (rest.empty()) break;
+    vo.order = static_cast<int>(rest.size());
+    vo.start_poles = rest;
+    const FitResult without = vector_fit(d, vo);
+    if (!without.converged || without.chi2 * 0.9 > r.chi2 ||
+        residual_stood_out(d, without.model, p))
+      break;
+    const Mode md = mode_of(m.domain == Domain::z ? std::log(p) / m.sample_time_s : p);
+    notes.push_back(
+        std::string(md.real ? "real pole, corner " : "pair at ") + fmt("%.4g", md.freq_hz) + " Hz" +
+        (md.real ? "" : " (damping " + fmt("%.3g", md.damping) + ")") + ": its modal peak stood " +
+        fmt("%.2g", weakest) + " sigma above the noise, and the fit without it is as good (chi2 " +
+        fmt("%+.1f", 100 * (without.chi2 / r.chi2 - 1)) +
+        " %) with the lines near it within the noise");
+    r = without;
+  }
+  return notes;
+}
+
+namespace {
+
 // For a fit that did not converge: the highest of the 12 orders below it that
 // converges on the same lines with the same options (from the standard
 // start), said with its fit quality; else that none does, and what to change.
@@ -634,6 +693,12 @@ FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o) {
         out.result = std::move(cold);
     }
   }
+  if (o.auto_order && !o.polynomial && out.result.converged) {
+    out.pruned = prune_spurious_modes(out.data, vo, out.result);
+    if (!out.pruned.empty())
+      out.order_reason += "; then " + std::to_string(out.pruned.size()) + " spurious mode" +
+                          (out.pruned.size() > 1 ? "s" : "") + " pruned";
+  }
   if (!out.result.converged) out.alternative = what_would_work(out, vo, o);
   if (out.result.model.reflected > 0)
     out.warnings.push_back(std::to_string(out.result.model.reflected) +
@@ -714,6 +779,7 @@ std::string fit_summary(const FrfFit& f, const std::string& source) {
     if (shown == 0 && beyond == 0) s << "    none\n";
     if (beyond > 0) s << "    (" << beyond << " more beyond 100 x the band's top: no effect within it)\n";
   };
+  for (const auto& p : f.pruned) s << "  pruned: " << p << "\n";
   list("poles", z.poles);
   list("zeros", z.zeros);
   for (const auto& w : f.warnings) s << "  warning: " << w << "\n";

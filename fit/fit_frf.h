@@ -78,11 +78,21 @@ struct FrfFit {
   std::string proper_note;       // auto_proper: why a direct term was or was not fitted
   double delay_first_s = 0;      // delay "auto": the phase-slope estimate
   std::vector<std::string> warnings;
+  std::vector<std::string> pruned;  // order "auto": the spurious modes removed, and why
   std::string alternative;  // a fit that did not converge: which lower order does (or that
                             // none does, and what to change)
 };
 
 FrfFit fit_frf(const ident::Frf& frf, const FitOptions& o);
+
+// Spurious-mode pruning, run by fit_frf after an automatic order choice: a
+// pole pair or real pole whose modal term stands less than 5 sigma above the
+// noise (sigma = 1/weight) on every line within 3 half-power bandwidths of
+// it is removed when the fit without it (started from the other poles)
+// converges, is less than 10 % worse overall and leaves the lines near it
+// within the noise; weakest first, at most 8. `r` becomes the pruned fit;
+// returns what was removed and why.
+std::vector<std::string> prune_spurious_modes(const FitData& d, VectorFitOptions vo, FitResult& r);
 
 // Human summary of a fit: poles and zeros as natural frequency and damping
 // (or corner frequency), gains, delay, roll-off and fit quality.

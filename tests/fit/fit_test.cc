@@ -796,3 +796,82 @@ TEST(VectorFit, StartsFromGivenPoles) {
   o.start_poles.erase(o.start_poles.begin() + 2);
   EXPECT_THROW(vector_fit(sample(t, 0.1, 1e4, 400), o), benchid::InputError);
 }
+
+namespace {
+
+// Linear line grid (as Welch gives), noise of rel_err per component.
+FitData noisy_lines(const RationalModel& t, double df, double f_hi, double rel_err,
+                    std::uint64_t seed) {
+  Gaussian g(seed);
+  FitData d;
+  for (double f = df; f <= f_hi; f += df) {
+    const cplx h = t.response(f);
+    d.freq_hz.push_back(f);
+    d.h.push_back(h + rel_err * std::abs(h) * cplx(g(), g()));
+    d.weight.push_back(1.0 / (rel_err * std::abs(h)));
+  }
+  return d;
+}
+
+RationalModel modes(const std::vector<std::array<double, 3>>& fz_gain) {
+  RationalModel t;
+  for (const auto& [f, z, k] : fz_gain) {
+    const double w = kTwoPi * f;
+    const cplx p(-z * w, w * std::sqrt(1 - z * z));
+    // residue of k w^2/(s^2 + 2 z w s + w^2) at p
+    const cplx r = k * w * w / (p - std::conj(p));
+    t.poles.push_back(p);
+    t.poles.push_back(std::conj(p));
+    t.residues.push_back(r);
+    t.residues.push_back(std::conj(r));
+  }
+  return t;
+}
+
+}  // namespace
+
+TEST(Prune, RemovesAPairTheDataDoNotNeedAcrossSeeds) {
+  // two modes (20 Hz, zeta 0.05; 150 Hz, zeta 0.03; invented) on 0.5 Hz
+  // lines to 500 Hz at 1 % noise, fitted with one pair too many: the spare
+  // poles (a pair, or two real poles) fit noise, stand below 5 sigma and are
+  // pruned; the two modes stay within 0.5 %. (A third mode whose peak is
+  // 2 sigma over its 60-line half-power band is kept: summed over those lines
+  // it stands beyond the noise, and the rule keeps what the data show.)
+  // Pruning acts on converged fits only (the order sweep takes no other);
+  // a spare pair that wanders does not converge, so seeds whose order-6 fit
+  // did not are counted and left out, and most must converge.
+  const RationalModel t = modes({{20, 0.05, 1.0}, {150, 0.03, 0.5}});
+  int converged = 0;
+  for (std::uint64_t seed = 1; seed <= 10; ++seed) {
+    SCOPED_TRACE(seed);
+    const FitData d = noisy_lines(t, 0.5, 500, 0.01, seed);
+    VectorFitOptions o;
+    o.order = 6;
+    o.proper = false;
+    FitResult r = vector_fit(d, o);
+    if (!r.converged) continue;
+    ++converged;
+    const auto notes = prune_spurious_modes(d, o, r);
+    EXPECT_GE(notes.size(), 1u);
+    ASSERT_EQ(r.model.poles.size(), 4u);
+    EXPECT_LT(pole_error(t.poles, r.model.poles), 5e-3);
+  }
+  EXPECT_GE(converged, 6);
+}
+
+TEST(Prune, KeepsAModeSpanningOneOrTwoLines) {
+  // Q = 1000 at 100 Hz (half-power band 0.1 Hz) on 0.25 Hz lines, beside a
+  // broad mode at 20 Hz: its modal peak stands far above 5 sigma on the one
+  // or two lines it touches, so nothing is pruned
+  const RationalModel t = modes({{20, 0.05, 1.0}, {100, 5e-4, 0.02}});
+  const FitData d = noisy_lines(t, 0.25, 250, 0.01, 1);
+  VectorFitOptions o;
+  o.order = 4;
+  o.proper = false;
+  FitResult r = vector_fit(d, o);
+  ASSERT_TRUE(r.converged);
+  ASSERT_LT(pole_error(t.poles, r.model.poles), 1e-3);
+  const auto notes = prune_spurious_modes(d, o, r);
+  EXPECT_TRUE(notes.empty()) << notes.front();
+  EXPECT_EQ(r.model.poles.size(), 4u);
+}
