@@ -23,6 +23,7 @@
 
 #include "fit/fit_frf.h"
 #include "fit/vector_fit.h"
+#include "tests/support/plants.h"
 
 using namespace benchid::fit;
 
@@ -34,16 +35,7 @@ int main(int argc, char** argv) {
   const int lines = std::atoi(argv[1]);
   const int order = argc > 2 ? std::atoi(argv[2]) : 30;
   const int repeat = argc > 3 ? std::atoi(argv[3]) : 5;
-  RationalModel t;
-  for (int i = 0; i < 15; ++i) {
-    const double w = 2 * M_PI * 5 * std::pow(1000.0, i / 14.0), z = 0.02 + 0.01 * (i % 3);
-    const cplx p(-z * w, w * std::sqrt(1 - z * z)), r(0.1 * w * (1 + i % 4), -0.05 * w * (i % 5));
-    t.poles.push_back(p);
-    t.poles.push_back(std::conj(p));
-    t.residues.push_back(r);
-    t.residues.push_back(std::conj(r));
-  }
-  t.direct = 0.01;
+  const RationalModel t = benchid::test::fifteen_mode_plant();
   FitData d;
   for (int k = 0; k < lines; ++k) {
     const double f = 1 * std::pow(1e4, static_cast<double>(k) / (lines - 1));

@@ -16,6 +16,7 @@
 #include "fit/vector_fit.h"
 #include "ident/error.h"
 #include "tests/support/expect_close.h"
+#include "tests/support/plants.h"
 #include "tests/support/pole_error.h"
 #include "tests/support/signals.h"
 #include "tests/support/temp_dir.h"
@@ -722,26 +723,7 @@ TEST(SkFit, AgreesWithVectorFittingOnAKnownPlant) {
 
 }  // namespace
 
-namespace {
-
-// 15 lightly damped modes (zeta 0.02-0.04) from 5 Hz to 5 kHz, log-spaced
-// over three decades, plus a direct term: the plant of
-// tests/bench/fit_bench.cc (invented)
-RationalModel fifteen_modes() {
-  RationalModel t;
-  for (int i = 0; i < 15; ++i) {
-    const double w = kTwoPi * 5 * std::pow(1000.0, i / 14.0), z = 0.02 + 0.01 * (i % 3);
-    const cplx p(-z * w, w * std::sqrt(1 - z * z)), r(0.1 * w * (1 + i % 4), -0.05 * w * (i % 5));
-    t.poles.push_back(p);
-    t.poles.push_back(std::conj(p));
-    t.residues.push_back(r);
-    t.residues.push_back(std::conj(r));
-  }
-  t.direct = 0.01;
-  return t;
-}
-
-}  // namespace
+using benchid::test::fifteen_mode_plant;
 
 TEST(FitFrf, AutoOrderFindsFifteenModesInFiveThousandNoisyLines) {
   // 5000 lines 1 Hz to 10 kHz with 1 % noise per line (40 dB SNR): the sweep
@@ -751,7 +733,7 @@ TEST(FitFrf, AutoOrderFindsFifteenModesInFiveThousandNoisyLines) {
   // and the fit stands at the noise (chi2/dof ~ 1 for the stated error, up
   // to the slight overfit the rule allows). With the delay known (none),
   // the order is the plant's.
-  const RationalModel t = fifteen_modes();
+  const RationalModel t = fifteen_mode_plant();
   Gaussian noise(7);
   const benchid::ident::Frf frf = as_frf(sample(t, 1, 1e4, 5000), 0.01, &noise);
   for (bool auto_delay : {false, true}) {
